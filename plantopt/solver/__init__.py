@@ -1,0 +1,24 @@
+"""Nonlinear programming and nonlinear-equation solvers of plantopt.
+
+Public interface::
+
+    from plantopt.solver import solve_nlp, solve_equations, compile_nlp, NLPResult, Status
+
+The package knows nothing of flowsheets or units: it works on casadi
+expressions and numpy arrays only.
+"""
+
+from plantopt.solver.equations import solve_equations
+from plantopt.solver.nlp import CompiledNLP, compile_nlp
+from plantopt.solver.result import NLPResult
+from plantopt.solver.status import Status
+
+__all__ = ["solve_nlp", "solve_equations", "compile_nlp", "CompiledNLP", "NLPResult", "Status"]
+
+
+def __getattr__(name: str):  # solve_nlp is imported lazily until the SQP module lands
+    if name == "solve_nlp":
+        from plantopt.solver.api import solve_nlp
+
+        return solve_nlp
+    raise AttributeError(name)

@@ -1,0 +1,123 @@
+"""Options, defaults and the algorithmic constants of the solvers, with sources.
+
+Filter SQP constants
+--------------------
+The SQP method follows
+
+* [FL2002] R. Fletcher, S. Leyffer, "Nonlinear programming without a penalty
+  function", Math. Programming 91 (2002) 239-269.
+* [FLT2002] R. Fletcher, S. Leyffer, Ph. L. Toint, "On the global convergence
+  of a filter-SQP algorithm", SIAM J. Optim. 13 (2002) 44-59.
+
+A trial point with violation ``h`` and objective ``f`` is acceptable to the
+filter when, for every entry ``(h_j, f_j)``,
+
+    h <= BETA * h_j        or        f <= f_j - GAMMA * h           [FL2002, (2.3)]
+
+(envelope with ``BETA`` close to 1 and ``GAMMA`` small; FL2002 uses
+beta = 0.99, gamma = 1e-5 -- values recalled from memory of the paper).
+A step with predicted reduction ``dq = -(g'd + 1/2 d'Hd) > 0`` and
+
+    dq >= KAPPA * h**2                                              [FLT2002, (2.8)]
+
+is an "f-type" step; it must in addition satisfy the sufficient reduction
+test ``ared / dq >= SIGMA`` [FLT2002, (2.9)] and does not enter the filter.
+Other accepted steps are "h-type" and add ``(h, f)`` to the filter.
+
+Trust-region radius rule (conventional, cf. Conn, Gould & Toint, "Trust-Region
+Methods", SIAM 2000, ch. 6): ``rho < 0.25 -> radius / 4``; ``rho > 0.75`` with
+the step on the trust-region boundary -> ``2 radius``.
+
+Scaling
+-------
+Constraint rows are scaled by ``s_i = min(1, GRAD_SCALE_MAX / ||grad g_i(x0)||_inf)``,
+clipped to ``[SCALE_MIN, 1]``: the same rule as IPOPT's gradient-based
+scaling with ``nlp_scaling_max_gradient = 100`` (A. Waechter, L. T. Biegler,
+Math. Programming 106 (2006) 25-57, section 3.8).
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from plantopt.errors import SolverError
+
+# --- filter [FL2002] -------------------------------------------------------
+#: Envelope factor on the violation, h <= BETA h_j.  [FL2002, beta = 0.99]
+FILTER_BETA = 0.99
+#: Envelope slope on the objective, f <= f_j - GAMMA h.  [FL2002, gamma = 1e-5]
+FILTER_GAMMA = 1e-5
+#: f-type switching constant, dq >= KAPPA h^2.  [FLT2002, (2.8)]
+FILTER_KAPPA = 1e-4
+#: Sufficient reduction ratio for f-type steps, ared >= SIGMA dq.  [FLT2002, sigma = 0.1]
+FILTER_SIGMA = 0.1
+
+# --- trust region ----------------------------------------------------------
+#: ratio below which the radius is divided by RADIUS_SHRINK
+RATIO_SHRINK = 0.25
+#: ratio above which (with the step on the boundary) the radius is doubled
+RATIO_EXPAND = 0.75
+RADIUS_SHRINK = 4.0
+RADIUS_EXPAND = 2.0
+#: initial l-inf radius in scaled variables (x / x_nominal)
+RADIUS_INIT = 10.0
+RADIUS_MAX = 1e6
+#: below this scaled radius the method declares stagnation
+RADIUS_MIN = 1e-12
+
+# --- scaling [Waechter & Biegler 2006, sec. 3.8] ---------------------------
+GRAD_SCALE_MAX = 100.0
+SCALE_MIN = 1e-8
+
+# --- inertia correction (cf. Waechter & Biegler 2006, sec. 3.1) -----------
+DELTA_FIRST = 1e-4
+DELTA_GROW = 8.0
+DELTA_MAX = 1e20
+#: quasi-definite lower-right block -EPS_QD I of the KKT matrix
+EPS_QD = 1e-10
+
+DEFAULTS: dict[str, Any] = {
+    "solver": "sqp",
+    "tol": 1e-8,
+    "max_iter": 200,
+    "max_time": float("inf"),
+    "verbose": 0,
+    "x_nominal": None,
+    "g_nominal": None,
+}
+
+EQUATION_DEFAULTS: dict[str, Any] = dict(DEFAULTS, solver="newton", tol=1e-9, max_iter=100)
+
+SOLVERS = ("sqp", "ipopt")
+
+
+def resolve_options(options: dict[str, Any] | None, defaults: dict[str, Any]) -> dict[str, Any]:
+    """Merge user options into defaults, rejecting unknown keys.
+
+    Parameters
+    ----------
+    options : dict or None
+        User options.
+    defaults : dict
+        Default values; its keys are the only accepted ones.
+
+    Returns
+    -------
+    dict
+        A new dictionary with every key of ``defaults``.
+
+    Raises
+    ------
+    SolverError
+        On an unknown key or an invalid value.
+    """
+    out = dict(defaults)
+    for key, val in (options or {}).items():
+        if key not in defaults:
+            raise SolverError(f"unknown solver option {key!r}; known: {sorted(defaults)}")
+        out[key] = val
+    if not (float(out["tol"]) > 0):
+        raise SolverError(f"option 'tol' must be positive, got {out['tol']!r}")
+    if int(out["max_iter"]) < 0:
+        raise SolverError(f"option 'max_iter' must be >= 0, got {out['max_iter']!r}")
+    return out
