@@ -5,6 +5,38 @@ Importing this package registers every unit model class in
 unit in a flowsheet file).
 """
 
-from unitmodels.base import REGISTRY, Option, Param, Port, Spec, StreamSym, Symbols, UnitConfigError, UnitModel, Var, register
+from unitmodels.base import (
+    REGISTRY,
+    ConformanceCase,
+    Option,
+    Param,
+    Port,
+    Spec,
+    StreamSym,
+    Symbols,
+    UnitConfigError,
+    UnitModel,
+    Var,
+    register,
+)
+from unitmodels import units as _units  # noqa: F401  (registers the classes)
+from unitmodels.kinetics import Reaction
+from unitmodels.thermo import Component, ComponentSystem
 
-__all__ = ["REGISTRY", "Option", "Param", "Port", "Spec", "StreamSym", "Symbols", "UnitConfigError", "UnitModel", "Var", "register"]
+__all__ = [
+    "REGISTRY",
+    "Component",
+    "ComponentSystem",
+    "ConformanceCase",
+    "Option",
+    "Param",
+    "Port",
+    "Reaction",
+    "Spec",
+    "StreamSym",
+    "Symbols",
+    "UnitConfigError",
+    "UnitModel",
+    "Var",
+    "register",
+]

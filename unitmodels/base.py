@@ -311,6 +311,41 @@ class UnitModel(ABC):
             groups.setdefault(s.group or s.name, []).append(s.name)
         return groups
 
+    def check_specs(self, given: set[str]) -> str | None:
+        """Check which specifications a unit in a file gives.
+
+        Parameters
+        ----------
+        given : set of str
+            Names of the specifications present in the unit's table.
+
+        Returns
+        -------
+        str or None
+            An error message (naming the missing or conflicting keys), or
+            None when the set is acceptable. The base rule is "exactly one
+            of each group of :meth:`spec_groups`"; a class overrides it when
+            its rule differs (a splitter takes N-1 of its N fractions).
+        """
+        known = {sp.name for sp in self.specs()}
+        unknown = sorted(given - known)
+        if unknown:
+            return f"unknown specification(s) {', '.join(unknown)} for a {self.kind}; known: {', '.join(sorted(known)) or 'none'}"
+        problems = []
+        for group, names in self.spec_groups().items():
+            hit = [n for n in names if n in given]
+            if not hit:
+                problems.append(f"missing {' or '.join(names)}")
+            elif len(hit) > 1:
+                problems.append(f"give only one of {', '.join(hit)}")
+        return "; ".join(problems) or None
+
+    @classmethod
+    def conformance_case(cls, system: Any = None) -> "ConformanceCase":
+        """A small, solvable example of this unit for the conformance suite
+        (:mod:`unitmodels.testing`)."""
+        raise NotImplementedError(f"{cls.__name__} has no conformance case")
+
     def validate(self) -> None:
         """Check options against components and reactions; raise UnitConfigError."""
 
@@ -448,6 +483,39 @@ def _type_words(t: type | tuple[type, ...]) -> str:
     ts = t if isinstance(t, tuple) else (t,)
     words = {str: "a string", bool: "true or false", int: "an integer", float: "a number", list: "a list"}
     return " or ".join(words.get(x, x.__name__) for x in ts)
+
+
+@dataclass
+class ConformanceCase:
+    """An example of one unit for :mod:`unitmodels.testing`.
+
+    Attributes
+    ----------
+    unit : UnitModel
+        A configured instance.
+    inlets : dict
+        Inlet port name to a list of ``(F, T, P, phase)`` with ``F`` a
+        sequence of n component flows (mol/s), ``T`` in K, ``P`` in Pa.
+    specs : dict
+        Specification name to SI value (exactly the set the unit needs).
+    params : dict
+        Parameter name to SI value (a sequence for per-component ones);
+        parameters with a default may be omitted.
+    guess : dict
+        Optional starting point: outlet port name to a list of ``(F, T, P)``
+        and internal variable name to a number. Missing entries start from
+        the first inlet stream and the variables' nominal values.
+    reacting : bool
+        True for reactors: the suite then checks element balances instead
+        of component balances.
+    """
+
+    unit: "UnitModel"
+    inlets: dict[str, list[tuple[Any, float, float, str]]]
+    specs: dict[str, float] = field(default_factory=dict)
+    params: dict[str, Any] = field(default_factory=dict)
+    guess: dict[str, Any] = field(default_factory=dict)
+    reacting: bool = False
 
 
 REGISTRY: dict[str, type[UnitModel]] = {}

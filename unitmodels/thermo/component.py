@@ -144,10 +144,18 @@ class Component:
             hvap = float(h["C1"]) * (1 - tr) ** (float(h["C2"]) + float(h["C3"]) * tr + float(h["C4"]) * tr**2)
             sources["hvap_298"] = "Perry's Table 2-150 correlation at 298.15 K (chemicals)"
             cpl_298 = float(row["Cpl"])
-            if math.isnan(cpl_298):
-                raise UnitConfigError("components", f"{label}: no liquid Cp at 298 K (Poling) in chemicals")
-            cp_liquid: tuple[float, ...] = (cpl_298,)
             sources["cp_liquid"] = "Poling liquid Cp at 298.15 K, held constant"
+            if math.isnan(cpl_298):
+                # corresponding-states estimate (Rowlinson-Bondi as given by Poling et al.)
+                from chemicals.acentric import omega as omega_of
+                from chemicals.heat_capacity import Rowlinson_Poling
+
+                w = omega_of(cas)
+                if tc is None or w is None:
+                    raise UnitConfigError("components", f"{label}: no liquid Cp (Poling) and no Tc/omega to estimate it")
+                cpl_298 = float(Rowlinson_Poling(T_REF, tc, w, sum(c * T_REF**k for k, c in enumerate(cp_gas))))
+                sources["cp_liquid"] = "Rowlinson-Poling estimate at 298.15 K, held constant"
+            cp_liquid: tuple[float, ...] = (cpl_298,)
         else:
             hvap = 0.0
             cp_liquid = cp_gas
