@@ -1,0 +1,92 @@
+"""Inertia of quasi-definite KKT matrices and Hessian regularisation.
+
+The matrix ``K = [[H + delta I, A'], [A, -eps I]]`` with ``A`` the equality
+rows has the "correct" inertia ``(n, m, 0)`` exactly when ``H + delta I``
+is positive definite on the null space of ``A`` (for full-rank ``A``; the
+``-eps I`` block keeps ``K`` nonsingular when ``A`` is rank deficient).
+The inertia is read off the signs of the pivots ``D`` of the ``LDL'``
+factorisation computed by ``qdldl``: by Sylvester's law of inertia the
+counts of positive and negative pivots equal those of eigenvalues.
+
+When the inertia is wrong ``delta`` is raised geometrically, as in the
+inertia correction of Waechter & Biegler (2006, Math. Programming 106,
+sec. 3.1, Algorithm IC).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import qdldl
+import scipy.sparse as sp
+
+from plantopt.solver.options import DELTA_FIRST, DELTA_GROW, DELTA_MAX, EPS_QD
+
+
+def kkt_matrix(H: sp.spmatrix, A: sp.spmatrix, delta: float, eps: float = EPS_QD) -> sp.csc_matrix:
+    """Quasi-definite KKT matrix ``[[H + delta I, A'], [A, -eps I]]``, shape (n+m, n+m)."""
+    n, m = H.shape[0], A.shape[0]
+    K = sp.bmat(
+        [[H + delta * sp.identity(n), A.T], [A, -eps * sp.identity(m)]],
+        format="csc",
+    )
+    return K
+
+
+def inertia(K: sp.spmatrix) -> tuple[int, int, int]:
+    """Counts of (positive, negative, zero) pivots of ``LDL'`` of a symmetric matrix.
+
+    Parameters
+    ----------
+    K : sparse (N, N)
+        Symmetric matrix (full storage; only the upper triangle is read).
+
+    Returns
+    -------
+    (int, int, int)
+        ``(n_pos, n_neg, n_zero)``; a breakdown of the factorisation (a zero
+        pivot) is reported as ``(0, 0, N)``.
+    """
+    N = K.shape[0]
+    if N == 0:
+        return (0, 0, 0)
+    try:
+        fac = qdldl.Solver(sp.triu(K, format="csc"), upper=True)
+        d = np.asarray(fac.factors()[1]).reshape(-1)
+    except (ValueError, RuntimeError):
+        return (0, 0, N)
+    if not np.isfinite(d).all():
+        return (0, 0, N)
+    tiny = 1e-300
+    return (int(np.sum(d > tiny)), int(np.sum(d < -tiny)), int(np.sum(np.abs(d) <= tiny)))
+
+
+def regularise(H: sp.spmatrix, A: sp.spmatrix, delta_last: float = 0.0) -> float:
+    """Smallest tried ``delta >= 0`` giving ``K`` the inertia ``(n, m, 0)``.
+
+    Parameters
+    ----------
+    H : sparse (n, n)
+        Lagrangian Hessian (full symmetric storage).
+    A : sparse (m, n)
+        Rows whose null space must carry positive curvature.
+    delta_last : float
+        Value that worked at the previous iteration; the search starts at a
+        third of it to avoid repeated factorisations (Waechter & Biegler 2006).
+
+    Returns
+    -------
+    float
+        The shift ``delta`` (0 when no correction was needed).
+    """
+    n, m = H.shape[0], A.shape[0]
+    want = (n, m, 0)
+    if inertia(kkt_matrix(H, A, 0.0)) == want:
+        return 0.0
+    delta = max(DELTA_FIRST, delta_last / 3.0)
+    scale = max(1.0, float(abs(H).max()) if H.nnz else 1.0)
+    delta = max(delta, 1e-8 * scale)
+    while delta < DELTA_MAX:
+        if inertia(kkt_matrix(H, A, delta)) == want:
+            return delta
+        delta *= DELTA_GROW
+    return delta

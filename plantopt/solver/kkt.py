@@ -1,0 +1,125 @@
+"""First-order optimality measures and least-squares multipliers.
+
+For ``min f(x)`` s.t. ``cl <= c(x) <= cu``, ``xl <= x <= xu`` with the
+Lagrangian ``L = f + y'c + yx'x`` (casadi sign convention) the measures are
+
+* stationarity   ``||grad f + J'y + yx||_inf``
+* feasibility    ``max(max(cl - c, c - cu, 0), max(xl - x, x - xu, 0))``
+* complementarity ``max_i |y_i^-| min(c_i - cl_i, 1)`` and
+  ``|y_i^+| min(cu_i - c_i, 1)`` (same for bounds), where ``y^- = min(y, 0)``
+  belongs to the lower and ``y^+ = max(y, 0)`` to the upper bound. Capping
+  the slack at 1 makes a multiplier on a missing (infinite) bound count as
+  a violation of size ``|y|`` instead of an infinite product.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import scipy.sparse as sp
+import scipy.sparse.linalg as spla
+
+
+def measures(
+    grad: np.ndarray, J: sp.spmatrix, c: np.ndarray, cl: np.ndarray, cu: np.ndarray,
+    x: np.ndarray, xl: np.ndarray, xu: np.ndarray, y: np.ndarray, yx: np.ndarray,
+) -> dict[str, float]:
+    """KKT residuals (see module docstring); all inputs in one consistent scaling."""
+    stat = grad + (J.T @ y if J.shape[0] else 0.0) + yx
+    viol_c = np.maximum(np.maximum(cl - c, c - cu), 0.0) if c.size else np.zeros(0)
+    viol_x = np.maximum(np.maximum(xl - x, x - xu), 0.0)
+
+    def comp(v, lo, hi, lam):
+        if v.size == 0:
+            return 0.0
+        eq = lo == hi
+        sl = np.minimum(np.where(np.isfinite(lo), np.maximum(v - lo, 0.0), 1.0), 1.0)
+        su = np.minimum(np.where(np.isfinite(hi), np.maximum(hi - v, 0.0), 1.0), 1.0)
+        cm = np.maximum(np.maximum(-lam, 0.0) * sl, np.maximum(lam, 0.0) * su)
+        cm[eq & np.isfinite(lo)] = 0.0
+        return float(np.max(cm))
+
+    return {
+        "stationarity": float(np.max(np.abs(stat), initial=0.0)),
+        "feasibility": float(max(np.max(viol_c, initial=0.0), np.max(viol_x, initial=0.0))),
+        "complementarity": max(comp(c, cl, cu, y), comp(x, xl, xu, yx)),
+    }
+
+
+def _ls_solve(M: sp.csc_matrix, grad: np.ndarray) -> np.ndarray | None:
+    # Augmented system [[I, M'], [M, 0]] [r; lam] = [-grad; 0]: lam minimises
+    # ||grad + M'lam||_2 without forming M M'. Unregularised first; a tiny
+    # -eps I block only when M is rank deficient (multipliers non-unique).
+    n, k = M.shape[1], M.shape[0]
+    if k == 0:
+        return np.zeros(0)
+    rhs = np.concatenate([-grad, np.zeros(k)])
+    for eps in (0.0, 1e-12):
+        K = sp.bmat([[sp.identity(n), M.T], [M, -eps * sp.identity(k) if eps else None]], format="csc")
+        try:
+            lu = spla.splu(K)
+        except RuntimeError:
+            continue
+        sol = lu.solve(rhs)
+        if eps:
+            K0 = sp.bmat([[sp.identity(n), M.T], [M, None]], format="csc")
+            for _ in range(5):  # refine towards the unregularised system
+                sol = sol + lu.solve(rhs - K0 @ sol)
+        if np.isfinite(sol).all():
+            return sol[n:]
+    return None
+
+
+def ls_multipliers(
+    grad: np.ndarray, J: sp.spmatrix, c: np.ndarray, cl: np.ndarray, cu: np.ndarray,
+    x: np.ndarray, xl: np.ndarray, xu: np.ndarray, act_r: np.ndarray, act_b: np.ndarray,
+    max_rounds: int = 5,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Least-squares multipliers on an active set, with sign clean-up.
+
+    Parameters
+    ----------
+    grad : ndarray, shape (n,)
+    J : sparse (m, n)
+    c, cl, cu : ndarray, shape (m,)
+    x, xl, xu : ndarray, shape (n,)
+    act_r, act_b : ndarray of int, shapes (m,), (n,)
+        -1 active at lower, +1 at upper, 0 inactive.
+    max_rounds : int
+        Re-solves after dropping wrongly signed inequality multipliers.
+
+    Returns
+    -------
+    y, yx : ndarray
+        Multipliers (casadi sign) with zero regularisation where ``M`` has
+        full row rank.
+    """
+    n, m = x.size, c.size
+    act_r, act_b = act_r.copy(), act_b.copy()
+    J = sp.csr_matrix(J)
+    y, yx = np.zeros(m), np.zeros(n)
+    for _ in range(max_rounds):
+        rows, bnds = np.flatnonzero(act_r), np.flatnonzero(act_b)
+        E = sp.csr_matrix((np.ones(bnds.size), (np.arange(bnds.size), bnds)), shape=(bnds.size, n))
+        M = sp.vstack([J[rows], E], format="csc")
+        lam = _ls_solve(M, grad)
+        if lam is None:
+            break
+        y, yx = np.zeros(m), np.zeros(n)
+        y[rows], yx[bnds] = lam[: rows.size], lam[rows.size:]
+        bad_r = ((act_r == -1) & (y > 0) | (act_r == 1) & (y < 0)) & (cl != cu)
+        bad_b = ((act_b == -1) & (yx > 0) | (act_b == 1) & (yx < 0)) & (xl != xu)
+        if not bad_r.any() and not bad_b.any():
+            break
+        act_r[bad_r] = 0
+        act_b[bad_b] = 0
+    return y, yx
+
+
+def near_active(v: np.ndarray, lo: np.ndarray, hi: np.ndarray, tol: float) -> np.ndarray:
+    """-1/+1/0 classification of values within ``tol`` of a finite bound."""
+    act = np.zeros(v.size, dtype=int)
+    act[np.isfinite(lo) & (v - lo <= tol)] = -1
+    act[np.isfinite(hi) & (hi - v <= tol) & (act == 0)] = 1
+    eq = np.isfinite(lo) & (lo == hi)
+    act[eq & (act == 0)] = -1
+    return act

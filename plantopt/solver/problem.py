@@ -1,0 +1,95 @@
+"""The NLP in scaled variables, as seen by the SQP kernels.
+
+Scaled quantities: ``z = x / dx``, ``F = sf f``, ``c = sg g``. With the
+scaled Lagrangian ``Ls = F + y'c + yx'z`` the casadi-convention
+multipliers of the original problem are ``lam_g = sg y / sf`` and
+``lam_x = yx / (dx sf)``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.sparse as sp
+
+from plantopt.solver.nlp import CompiledNLP
+from plantopt.solver.scaling import Scaling
+
+
+@dataclass
+class ScaledProblem:
+    """Scaled evaluators and bounds of one solve.
+
+    Attributes
+    ----------
+    cnlp : CompiledNLP
+    p : ndarray, shape (np,)
+    sc : Scaling
+    zl, zu : ndarray, shape (nx,)
+        Scaled variable bounds.
+    cl, cu : ndarray, shape (ng,)
+        Scaled constraint bounds.
+    """
+
+    cnlp: CompiledNLP
+    p: np.ndarray
+    sc: Scaling
+    zl: np.ndarray
+    zu: np.ndarray
+    cl: np.ndarray
+    cu: np.ndarray
+
+    def x(self, z: np.ndarray) -> np.ndarray:
+        """Unscaled point, shape (nx,)."""
+        return z * self.sc.dx
+
+    def values(self, z: np.ndarray) -> tuple[float, np.ndarray] | None:
+        """Scaled objective and constraints, or ``None`` if not finite."""
+        x = self.x(z)
+        try:
+            f = self.cnlp.f(x, self.p)
+            g = self.cnlp.g(x, self.p)
+        except RuntimeError:  # casadi evaluation error counts as failed evaluation
+            return None
+        if not np.isfinite(f) or not np.isfinite(g).all():
+            return None
+        return self.sc.sf * f, self.sc.sg * g
+
+    def derivatives(self, z: np.ndarray) -> tuple[np.ndarray, sp.csc_matrix] | None:
+        """Scaled gradient (nx,) and Jacobian (ng, nx), or ``None`` if not finite."""
+        x = self.x(z)
+        gr = self.cnlp.grad_f(x, self.p)
+        J = self.cnlp.jac(x, self.p)
+        if not np.isfinite(gr).all() or not np.isfinite(J.data).all():
+            return None
+        Js = (sp.diags(self.sc.sg) @ J @ sp.diags(self.sc.dx)).tocsc()
+        return self.sc.sf * self.sc.dx * gr, Js
+
+    def hessian(self, z: np.ndarray, sigma: float, y: np.ndarray) -> sp.csc_matrix | None:
+        """Scaled Hessian of ``sigma F + y'c``, full symmetric (nx, nx)."""
+        H = self.cnlp.hess(self.x(z), self.p, sigma * self.sc.sf, self.sc.sg * y)
+        if not np.isfinite(H.data).all():
+            return None
+        D = sp.diags(self.sc.dx)
+        return (D @ H @ D).tocsc()
+
+    def violation(self, c: np.ndarray) -> float:
+        """l1 norm of the scaled constraint violation."""
+        if c.size == 0:
+            return 0.0
+        return float(np.sum(np.maximum(np.maximum(self.cl - c, c - self.cu), 0.0)))
+
+    def violation_inf(self, c: np.ndarray) -> float:
+        """Max norm of the scaled constraint violation."""
+        if c.size == 0:
+            return 0.0
+        return float(np.max(np.maximum(np.maximum(self.cl - c, c - self.cu), 0.0)))
+
+    def unscale_multipliers(self, y: np.ndarray, yx: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Casadi-convention ``lam_g`` (ng,) and ``lam_x`` (nx,)."""
+        return self.sc.sg * y / self.sc.sf, yx / (self.sc.dx * self.sc.sf)
+
+    def scale_multipliers(self, lam_g: np.ndarray, lam_x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Inverse of :meth:`unscale_multipliers`."""
+        return lam_g * self.sc.sf / self.sc.sg, lam_x * self.sc.dx * self.sc.sf

@@ -1,0 +1,227 @@
+"""Sparse QP subproblems: piqp plus an active-set polish.
+
+The QP is ::
+
+    min_d  g'd + 1/2 d'Hd   s.t.  l <= A d <= u,   lb <= d <= ub
+
+solved by the proximal interior-point method piqp (R. Schwan, Y. Jiang,
+D. Kuhn, C. N. Jones, "PIQP: A proximal interior-point quadratic
+programming solver", IEEE CDC 2023). Its multipliers are accurate to about
+the interior-point tolerance; a "polish" then solves the equality-
+constrained KKT system on the identified active set with a sparse LU and
+keeps the result only when it is primal feasible and dual sign-consistent.
+
+Multipliers use the casadi convention: ``L = q(d) + y'(A d) + yx'd``, so
+``y_i < 0`` at an active lower bound and ``y_i > 0`` at an active upper one.
+piqp reports ``z_u - z_l`` in this same convention (checked in the tests).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import piqp
+import scipy.sparse as sp
+import scipy.sparse.linalg as spla
+
+
+@dataclass
+class QPResult:
+    """Solution of one QP.
+
+    Attributes
+    ----------
+    status : str
+        ``"solved"``, ``"infeasible"`` or ``"failed"``.
+    d : ndarray, shape (n,)
+    y : ndarray, shape (m,)
+        Row multipliers (casadi sign).
+    yx : ndarray, shape (n,)
+        Bound multipliers (casadi sign).
+    obj : float
+        ``g'd + 1/2 d'Hd``.
+    polished : bool
+        Whether the active-set polish was accepted.
+    active_rows, active_bounds : ndarray of int
+        Indices with sign (-1 lower, +1 upper, 0 inactive), shapes (m,), (n,).
+    """
+
+    status: str
+    d: np.ndarray
+    y: np.ndarray
+    yx: np.ndarray
+    obj: float
+    polished: bool
+    active_rows: np.ndarray
+    active_bounds: np.ndarray
+
+
+def _classify(val: np.ndarray, lo: np.ndarray, hi: np.ndarray, mult: np.ndarray) -> np.ndarray:
+    # Interior-point rule: a constraint is active when its multiplier is
+    # larger than its slack; equalities are always active.
+    act = np.zeros(val.size, dtype=int)
+    eq = lo == hi
+    sl = val - lo
+    su = hi - val
+    scale = 1.0 + np.abs(val)
+    act[(mult < 0) & (-mult > sl) & np.isfinite(lo)] = -1
+    act[(mult > 0) & (mult > su) & np.isfinite(hi)] = 1
+    act[(sl <= 1e-12 * scale) & np.isfinite(lo) & (act == 0)] = -1
+    act[(su <= 1e-12 * scale) & np.isfinite(hi) & (act == 0)] = 1
+    act[eq & np.isfinite(lo)] = np.where(act[eq & np.isfinite(lo)] == 0, -1, act[eq & np.isfinite(lo)])
+    return act
+
+
+def kkt_solve(
+    H: sp.spmatrix, g: np.ndarray, M: sp.spmatrix, b: np.ndarray
+) -> tuple[np.ndarray, np.ndarray] | None:
+    """Solve ``[[H, M'], [M, 0]] [d; y] = [-g; b]`` by sparse LU.
+
+    Returns ``None`` when the matrix is singular (e.g. dependent active rows).
+    One step of iterative refinement is applied.
+    """
+    n, k = H.shape[0], M.shape[0]
+    K = sp.bmat([[H, M.T], [M, None]], format="csc") if k else sp.csc_matrix(H)
+    rhs = np.concatenate([-g, b])
+    try:
+        lu = spla.splu(K)
+    except RuntimeError:
+        return None
+    sol = lu.solve(rhs)
+    sol = sol + lu.solve(rhs - K @ sol)
+    if not np.isfinite(sol).all():
+        return None
+    return sol[:n], sol[n:]
+
+
+def polish(
+    H: sp.spmatrix, g: np.ndarray, A: sp.spmatrix, l: np.ndarray, u: np.ndarray,
+    lb: np.ndarray, ub: np.ndarray, act_r: np.ndarray, act_b: np.ndarray,
+    feas_tol: float = 1e-9,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
+    """Re-solve the QP as an equality-constrained one on a given active set.
+
+    Parameters
+    ----------
+    H, g, A, l, u, lb, ub
+        QP data as in the module docstring.
+    act_r, act_b : ndarray of int, shapes (m,), (n,)
+        -1/+1 for rows/bounds active at lower/upper, 0 otherwise.
+
+    Returns
+    -------
+    (d, y, yx) or None
+        ``None`` when the KKT matrix is singular, the solution violates an
+        inactive constraint by more than ``feas_tol`` (relative), or a
+        multiplier has the wrong sign.
+    """
+    n = H.shape[0]
+    rows = np.flatnonzero(act_r)
+    bnds = np.flatnonzero(act_b)
+    A = sp.csr_matrix(A)
+    E = sp.csr_matrix((np.ones(bnds.size), (np.arange(bnds.size), bnds)), shape=(bnds.size, n))
+    M = sp.vstack([A[rows], E], format="csc")
+    b = np.concatenate([np.where(act_r[rows] < 0, l[rows], u[rows]),
+                        np.where(act_b[bnds] < 0, lb[bnds], ub[bnds])])
+    sol = kkt_solve(sp.csc_matrix(H), g, M, b)
+    if sol is None:
+        return None
+    d, lam = sol
+    y = np.zeros(A.shape[0])
+    yx = np.zeros(n)
+    y[rows] = lam[: rows.size]
+    yx[bnds] = lam[rows.size:]
+    Ad = A @ d
+    tol_r = feas_tol * (1.0 + np.abs(Ad))
+    tol_b = feas_tol * (1.0 + np.abs(d))
+    if (Ad < l - tol_r).any() or (Ad > u + tol_r).any():
+        return None
+    if (d < lb - tol_b).any() or (d > ub + tol_b).any():
+        return None
+    ineq = l != u
+    scale = 1e-9 * max(1.0, float(np.max(np.abs(lam), initial=0.0)))
+    if ((act_r == -1) & ineq & (y > scale)).any() or ((act_r == 1) & ineq & (y < -scale)).any():
+        return None
+    fixed = lb == ub
+    if ((act_b == -1) & ~fixed & (yx > scale)).any() or ((act_b == 1) & ~fixed & (yx < -scale)).any():
+        return None
+    return d, y, yx
+
+
+def solve_qp(
+    H: sp.spmatrix, g: np.ndarray, A: sp.spmatrix, l: np.ndarray, u: np.ndarray,
+    lb: np.ndarray, ub: np.ndarray, *, do_polish: bool = True, eps: float = 1e-10,
+    max_iter: int = 250,
+) -> QPResult:
+    """Solve a sparse convex QP (see module docstring) with piqp, then polish.
+
+    Parameters
+    ----------
+    H : sparse (n, n)
+        Symmetric Hessian (full storage), assumed PSD on the feasible set's
+        relevant subspace (the caller regularises it).
+    g : ndarray, shape (n,)
+    A : sparse (m, n)
+    l, u : ndarray, shape (m,)
+        Row bounds, ``l == u`` for equalities, ``+-inf`` for none.
+    lb, ub : ndarray, shape (n,)
+        Bounds on ``d`` (finite or infinite).
+    do_polish : bool
+        Apply the active-set polish.
+    eps : float
+        piqp absolute/relative tolerance.
+    max_iter : int
+        piqp iteration limit.
+
+    Returns
+    -------
+    QPResult
+    """
+    n, m = H.shape[0], A.shape[0]
+    A = sp.csr_matrix(A)
+    eq = np.flatnonzero(l == u)
+    ineq = np.flatnonzero(l != u)
+    solver = piqp.SparseSolver()
+    s = solver.settings
+    s.verbose = False
+    s.eps_abs = eps
+    s.eps_rel = eps
+    s.max_iter = max_iter
+    P = sp.triu(H, format="csc")
+    Aeq = sp.csc_matrix(A[eq]) if eq.size else None
+    G = sp.csc_matrix(A[ineq]) if ineq.size else None
+    solver.setup(
+        P, np.asarray(g, float),
+        Aeq, l[eq] if eq.size else None,
+        G, l[ineq] if ineq.size else None, u[ineq] if ineq.size else None,
+        np.asarray(lb, float), np.asarray(ub, float),
+    )
+    st = solver.solve()
+    res = solver.result
+    if st == piqp.PIQP_PRIMAL_INFEASIBLE:
+        z = np.zeros(n)
+        return QPResult("infeasible", z, np.zeros(m), z.copy(), np.inf, False,
+                        np.zeros(m, int), np.zeros(n, int))
+    d = np.array(res.x, dtype=float)
+    y = np.zeros(m)
+    if eq.size:
+        y[eq] = np.array(res.y)
+    if ineq.size:
+        y[ineq] = np.array(res.z_u) - np.array(res.z_l)
+    yx = np.array(res.z_bu) - np.array(res.z_bl)
+    ok = st == piqp.PIQP_SOLVED and np.isfinite(d).all()
+    Ad = A @ d
+    act_r = _classify(Ad, l, u, y)
+    act_b = _classify(d, lb, ub, yx)
+    polished = False
+    if do_polish and np.isfinite(d).all():
+        pol = polish(H, g, A, l, u, lb, ub, act_r, act_b)
+        if pol is not None:
+            d, y, yx = pol
+            polished = True
+            ok = True
+    if not ok:
+        return QPResult("failed", d, y, yx, np.inf, False, act_r, act_b)
+    obj = float(g @ d + 0.5 * d @ (H @ d))
+    return QPResult("solved", d, y, yx, obj, polished, act_r, act_b)

@@ -1,0 +1,339 @@
+"""Filter SQP driver with an l-infinity trust region.
+
+Algorithm (all quantities scaled, see :mod:`plantopt.solver.problem`):
+
+1. At ``z`` solve the QP ``min g'd + 1/2 d'(H + delta I)d`` subject to the
+   linearised constraints and ``max(zl - z, -radius) <= d <= min(zu - z, radius)``
+   (FL2002 sec. 2). ``H`` is the exact Lagrangian Hessian; ``delta`` is the
+   smallest tried shift giving the KKT matrix of the equality rows the
+   correct inertia (:mod:`plantopt.solver.inertia`).
+2. If the QP multipliers satisfy the KKT conditions at ``z`` the method
+   stops (after recomputing multipliers with zero regularisation).
+3. The trial point ``z + d`` is judged by the filter (:mod:`filter`). An
+   f-type step (``dq >= KAPPA h^2``) must also satisfy ``ared >= SIGMA dq``;
+   an h-type step adds the current pair to the filter. A rejected step gets
+   one second-order correction (constraint constant ``c(z + d) - J d``,
+   FL2002 sec. 4; Nocedal & Wright 2006, sec. 15.6) before the radius is cut.
+4. An inconsistent QP starts feasibility restoration
+   (:mod:`plantopt.solver.restoration`), which returns to the filter or
+   certifies local infeasibility.
+"""
+
+from __future__ import annotations
+
+import time
+from typing import Any
+
+import numpy as np
+import scipy.sparse as sp
+
+from plantopt.solver import kkt as kktmod
+from plantopt.solver.filter import Filter, acceptable_to_current, update_radius
+from plantopt.solver.inertia import regularise
+from plantopt.solver.nlp import CompiledNLP
+from plantopt.solver.options import (
+    FILTER_KAPPA, FILTER_SIGMA, RADIUS_INIT, RADIUS_MIN,
+)
+from plantopt.solver.problem import ScaledProblem
+from plantopt.solver.qp import QPResult, solve_qp
+from plantopt.solver.restoration import elastic_qp
+from plantopt.solver.result import NLPResult
+from plantopt.solver.scaling import make_scaling, variable_scale
+from plantopt.solver.status import Status
+
+#: tolerance (scaled) for calling a constraint active when recomputing multipliers
+_ACTIVE_TOL = 1e-6
+
+
+class _State:
+    """Current iterate: point, values, derivatives and multipliers."""
+
+    def __init__(self, z, F, c, grad, J, y, yx):
+        self.z, self.F, self.c, self.grad, self.J, self.y, self.yx = z, F, c, grad, J, y, yx
+        self.act_r: np.ndarray | None = None
+        self.act_b: np.ndarray | None = None
+
+
+def _log_header() -> None:
+    print(f"{'iter':>4} {'objective':>14} {'violation':>10} {'optimality':>10} "
+          f"{'radius':>9} {'ratio':>9}  step")
+
+
+def _finish(prob: ScaledProblem, st: _State, tol: float) -> tuple[np.ndarray, np.ndarray, dict, bool]:
+    """Multipliers with zero regularisation and the scaled KKT measures at ``st``.
+
+    Returns ``(y, yx, measures, optimal)``; the QP multipliers are kept if
+    they measure better than the least-squares ones.
+    """
+    z, c = st.z, st.c
+    act_r = kktmod.near_active(c, prob.cl, prob.cu, _ACTIVE_TOL)
+    act_b = kktmod.near_active(z, prob.zl, prob.zu, _ACTIVE_TOL)
+    if st.act_r is not None:
+        act_r = np.where(act_r == 0, st.act_r, act_r)
+        act_b = np.where(act_b == 0, st.act_b, act_b)
+    y, yx = kktmod.ls_multipliers(st.grad, st.J, c, prob.cl, prob.cu, z, prob.zl, prob.zu, act_r, act_b)
+    m_ls = kktmod.measures(st.grad, st.J, c, prob.cl, prob.cu, z, prob.zl, prob.zu, y, yx)
+    m_qp = kktmod.measures(st.grad, st.J, c, prob.cl, prob.cu, z, prob.zl, prob.zu, st.y, st.yx)
+    if max(m_qp.values()) < max(m_ls.values()):
+        y, yx, m_ls = st.y, st.yx, m_qp
+    return y, yx, m_ls, max(m_ls.values()) < tol
+
+
+def sqp_solve(
+    cnlp: CompiledNLP, x0: np.ndarray, lbx: np.ndarray, ubx: np.ndarray,
+    lbg: np.ndarray, ubg: np.ndarray, p: np.ndarray, opts: dict[str, Any],
+    warm_start: dict[str, Any] | None,
+) -> NLPResult:
+    """Run the filter SQP method; see :func:`plantopt.solver.solve_nlp`."""
+    t0 = time.perf_counter()
+    cnlp.reset_counts()
+    tol, max_iter, max_time = float(opts["tol"]), int(opts["max_iter"]), float(opts["max_time"])
+    verbose = int(opts["verbose"])
+    n, m = cnlp.nx, cnlp.ng
+    dx = variable_scale(opts["x_nominal"], n)
+    x = np.clip(x0, lbx, ubx)
+    history: list[dict[str, Any]] = []
+
+    gr0 = cnlp.grad_f(x, p)
+    J0 = cnlp.jac(x, p)
+    f0, g0 = cnlp.f(x, p), cnlp.g(x, p)
+    if not (np.isfinite(gr0).all() and np.isfinite(J0.data).all() and np.isfinite(f0)
+            and np.isfinite(g0).all()):
+        return _result(cnlp, None, x, p, lbx, ubx, lbg, ubg, np.zeros(m), np.zeros(n),
+                       Status.FAILED, "function or derivative not finite at the start point",
+                       0, history, t0, RADIUS_INIT, tol)
+    sc = make_scaling(dx, gr0, J0, opts["g_nominal"])
+    prob = ScaledProblem(cnlp, p, sc, lbx / dx, ubx / dx, sc.sg * lbg, sc.sg * ubg)
+    z = x / dx
+    F, c = sc.sf * f0, sc.sg * g0
+    grad, J = sc.sf * dx * gr0, (sp.diags(sc.sg) @ J0 @ sp.diags(dx)).tocsc()
+    y, yx = np.zeros(m), np.zeros(n)
+    radius = RADIUS_INIT
+    if warm_start:
+        if warm_start.get("lam_g") is not None and warm_start.get("lam_x") is not None:
+            y, yx = prob.scale_multipliers(np.asarray(warm_start["lam_g"], float),
+                                           np.asarray(warm_start["lam_x"], float))
+        if warm_start.get("radius"):
+            radius = float(warm_start["radius"])
+    st = _State(z, F, c, grad, J, y, yx)
+    h = prob.violation(c)
+    filt = Filter(h_max=1e4 * max(1.0, h))
+    eq_rows = np.flatnonzero(np.isfinite(prob.cl) & (prob.cl == prob.cu))
+    delta_last = 0.0
+    it = 0
+    status, message = Status.FAILED, ""
+    best = st
+    best_key = (h > tol, h if h > tol else F)
+    if verbose:
+        _log_header()
+
+    def record(kind: str, ratio: float, opt: float, accepted: bool) -> None:
+        rec = {"iter": it, "f": st.F / sc.sf, "violation": prob.violation_inf(st.c),
+               "optimality": opt, "radius": radius, "ratio": ratio, "kind": kind,
+               "accepted": accepted}
+        history.append(rec)
+        if verbose:
+            print(f"{it:4d} {rec['f']:14.7e} {rec['violation']:10.3e} {opt:10.3e} "
+                  f"{radius:9.2e} {ratio:9.2e}  {kind}{'' if accepted else ' (rejected)'}")
+
+    def lin_bounds(zc: np.ndarray, r: float) -> tuple[np.ndarray, np.ndarray]:
+        return np.maximum(prob.zl - zc, -r), np.minimum(prob.zu - zc, r)
+
+    while True:
+        if it >= max_iter:
+            status, message = Status.ITERATION_LIMIT, f"{max_iter} iterations"
+            break
+        if time.perf_counter() - t0 > max_time:
+            status, message = Status.TIME_LIMIT, f"max_time {max_time} s reached"
+            break
+        if radius < RADIUS_MIN:
+            status, message = Status.FAILED, "trust region collapsed"
+            break
+        it += 1
+        H = prob.hessian(st.z, 1.0, st.y)
+        if H is None:
+            status, message = Status.FAILED, "Hessian not finite"
+            break
+        delta = regularise(H, st.J[eq_rows], delta_last)
+        delta_last = delta
+        Hr = (H + delta * sp.identity(n)).tocsc()
+        lb, ub = lin_bounds(st.z, radius)
+        qp = solve_qp(Hr, st.grad, st.J, prob.cl - st.c, prob.cu - st.c, lb, ub)
+        if qp.status == "failed":
+            # QP solver trouble on a merely null-space-convex Hessian: convexify fully
+            delta2 = regularise(H, sp.csc_matrix((0, n)), delta)
+            Hr = (H + delta2 * sp.identity(n)).tocsc()
+            qp = solve_qp(Hr, st.grad, st.J, prob.cl - st.c, prob.cu - st.c, lb, ub)
+        if qp.status != "solved":
+            out = _restore(prob, st, filt, radius, tol, max_iter, max_time, t0, it, record)
+            st, radius, it, rstat, rmsg = out
+            h = prob.violation(st.c)
+            if rstat is not None:
+                status, message = rstat, rmsg
+                if rstat is Status.INFEASIBLE:
+                    best = st
+                break
+            continue
+        meas = kktmod.measures(st.grad, st.J, st.c, prob.cl, prob.cu, st.z, prob.zl, prob.zu, qp.y, qp.yx)
+        opt = max(meas["stationarity"], meas["complementarity"])
+        if max(meas.values()) < tol:
+            st.y, st.yx, st.act_r, st.act_b = qp.y, qp.yx, qp.active_rows, qp.active_bounds
+            record("optimal", np.nan, opt, True)
+            status, message = Status.OPTIMAL, "KKT conditions satisfied"
+            break
+        d = qp.d
+        dn = float(np.max(np.abs(d), initial=0.0))
+        pred = -qp.obj
+        at_boundary = dn >= 0.99 * radius
+        ftype = pred > 0 and pred >= FILTER_KAPPA * h**2
+        lin = st.c + st.J @ d
+        pred_h = h - prob.violation(lin)
+
+        def judge(dd: np.ndarray):
+            zt = np.clip(st.z + dd, prob.zl, prob.zu)
+            vals = prob.values(zt)
+            if vals is None:
+                return None, -np.inf, zt, None
+            Ft, ct = vals
+            ht = prob.violation(ct)
+            ok = filt.acceptable(ht, Ft) and acceptable_to_current(ht, Ft, h, st.F)
+            if Ft > st.F and ht >= h:
+                ok = False  # worse objective without less violation
+            if ftype:
+                ratio = (st.F - Ft) / pred
+                ok = ok and ratio >= FILTER_SIGMA
+            else:
+                ratio = (h - ht) / pred_h if pred_h > 0 else (1.0 if ht < h else -np.inf)
+            return ok, ratio, zt, (Ft, ct, ht)
+
+        ok, ratio, zt, trial = judge(d)
+        kind = "objective" if ftype else "feasibility"
+        used_qp: QPResult = qp
+        if ok is False and m > 0 and trial is not None:
+            ct = trial[1]
+            csoc = ct - st.J @ d
+            qp2 = solve_qp(Hr, st.grad, st.J, prob.cl - csoc, prob.cu - csoc, lb, ub)
+            if qp2.status == "solved":
+                ok2, ratio2, zt2, trial2 = judge(qp2.d)
+                if ok2:
+                    ok, ratio, zt, trial, kind, used_qp = ok2, ratio2, zt2, trial2, "correction", qp2
+        if ok:
+            derivs = prob.derivatives(zt)
+            if derivs is None:
+                ok = False
+        if not ok:
+            radius = update_radius(radius, -np.inf, dn, at_boundary)
+            record(kind, float(ratio), opt, False)
+            continue
+        if not ftype:
+            filt.add(h, st.F)
+        Ft, ct, ht = trial
+        st = _State(zt, Ft, ct, derivs[0], derivs[1], used_qp.y, used_qp.yx)
+        st.act_r, st.act_b = used_qp.active_rows, used_qp.active_bounds
+        h = ht
+        radius = update_radius(radius, ratio, dn, at_boundary)
+        record(kind, float(ratio), opt, True)
+        key = (h > tol, h if h > tol else Ft)
+        if key <= best_key:
+            best, best_key = st, key
+
+    if status in (Status.ITERATION_LIMIT, Status.TIME_LIMIT, Status.FAILED):
+        cur_key = (h > tol, h if h > tol else st.F)
+        if best_key < cur_key:
+            st = best
+    y, yx, _, optimal = _finish(prob, st, tol)
+    if optimal and status is not Status.INFEASIBLE:
+        status, message = Status.OPTIMAL, message if status is Status.OPTIMAL else \
+            f"KKT conditions satisfied (after: {message})"
+    elif status is Status.OPTIMAL:
+        status, message = Status.FAILED, "QP test passed but recomputed KKT measures exceed tol"
+    lam_g, lam_x = prob.unscale_multipliers(y, yx)
+    return _result(cnlp, prob, prob.x(st.z), p, lbx, ubx, lbg, ubg, lam_g, lam_x, status,
+                   message, it, history, t0, radius, tol)
+
+
+def _restore(prob, st, filt, radius, tol, max_iter, max_time, t0, it, record):
+    """Feasibility restoration; returns ``(state, radius, it, status or None, message)``."""
+    n, m = prob.cnlp.nx, prob.cnlp.ng
+    h = prob.violation(st.c)
+    filt.add(h, st.F)
+    yr = np.clip(st.y, -1.0, 1.0)
+    rad = max(radius, 1e-2)
+    delta_last = 0.0
+    while True:
+        if it >= max_iter:
+            return st, rad, it, Status.ITERATION_LIMIT, f"{max_iter} iterations (in restoration)"
+        if time.perf_counter() - t0 > max_time:
+            return st, rad, it, Status.TIME_LIMIT, "max_time reached (in restoration)"
+        if rad < RADIUS_MIN:
+            return st, rad, it, Status.FAILED, "trust region collapsed in restoration"
+        if prob.violation_inf(st.c) <= tol:
+            return st, rad, it, None, ""
+        it += 1
+        Hc = prob.hessian(st.z, 0.0, yr)
+        if Hc is None:
+            return st, rad, it, Status.FAILED, "Hessian not finite in restoration"
+        delta = regularise(Hc, sp.csc_matrix((0, n)), delta_last)
+        delta_last = delta
+        Hcr = (Hc + delta * sp.identity(n)).tocsc()
+        lb, ub = np.maximum(prob.zl - st.z, -rad), np.minimum(prob.zu - st.z, rad)
+        es = elastic_qp(Hcr, st.J, st.c, prob.cl, prob.cu, lb, ub, h)
+        if es.status != "solved":
+            return st, rad, it, Status.FAILED, "elastic QP failed in restoration"
+        dn = float(np.max(np.abs(es.d), initial=0.0))
+        if es.pred <= tol * max(1.0, h):
+            record("restoration", np.nan, np.nan, False)
+            return st, rad, it, Status.INFEASIBLE, (
+                f"locally infeasible: no predicted decrease of the l1 violation {h:.3e}")
+        zt = np.clip(st.z + es.d, prob.zl, prob.zu)
+        vals = prob.values(zt)
+        ratio = -np.inf
+        if vals is not None:
+            Ft, ct = vals
+            ht = prob.violation(ct)
+            ratio = (h - ht) / es.pred
+        accepted = ratio >= FILTER_SIGMA
+        derivs = prob.derivatives(zt) if accepted else None
+        accepted = accepted and derivs is not None
+        rad = update_radius(rad, ratio, dn, dn >= 0.99 * rad)
+        if accepted:
+            st = _State(zt, Ft, ct, derivs[0], derivs[1], np.zeros(m), np.zeros(n))
+            yr = es.y
+            h = ht
+        record("restoration", float(ratio), np.nan, accepted)
+        if accepted and filt.acceptable(h, st.F):
+            return st, rad, it, None, ""
+
+
+def _result(cnlp, prob, x, p, lbx, ubx, lbg, ubg, lam_g, lam_x, status, message, it,
+            history, t0, radius, tol) -> NLPResult:
+    f = cnlp.f(x, p)
+    g = cnlp.g(x, p)
+    gr = cnlp.grad_f(x, p)
+    J = cnlp.jac(x, p)
+    un = kktmod.measures(gr, J, g, lbg, ubg, x, lbx, ubx, lam_g, lam_x)
+    if prob is not None:
+        y, yx = prob.scale_multipliers(lam_g, lam_x)
+        z = x / prob.sc.dx
+        grs = prob.sc.sf * prob.sc.dx * gr
+        Js = (sp.diags(prob.sc.sg) @ J @ sp.diags(prob.sc.dx)).tocsc()
+        sc = kktmod.measures(grs, Js, prob.sc.sg * g, prob.cl, prob.cu, z, prob.zl, prob.zu, y, yx)
+    else:
+        sc = un
+    kkt = dict(un)
+    kkt.update({k + "_scaled": v for k, v in sc.items()})
+    tol_a = 1e-9
+    active = {
+        "x_lower": np.flatnonzero(np.isfinite(lbx) & (x - lbx <= tol_a * (1 + np.abs(lbx)))),
+        "x_upper": np.flatnonzero(np.isfinite(ubx) & (ubx - x <= tol_a * (1 + np.abs(ubx)))),
+        "g_lower": np.flatnonzero(np.isfinite(lbg) & (g - lbg <= tol_a * (1 + np.abs(lbg)))),
+        "g_upper": np.flatnonzero(np.isfinite(ubg) & (ubg - g <= tol_a * (1 + np.abs(ubg)))),
+    }
+    return NLPResult(
+        status=status, x=np.asarray(x, float), f=float(f), g=g, lam_g=np.asarray(lam_g, float),
+        lam_x=np.asarray(lam_x, float), iterations=it, n_eval=dict(cnlp.n_eval), kkt=kkt,
+        wall_time=time.perf_counter() - t0, history=history, active_set=active,
+        warm_start={"x": np.array(x, float), "lam_g": np.array(lam_g, float),
+                    "lam_x": np.array(lam_x, float), "radius": None if radius is None else float(radius), "active_set": active},
+        solver="sqp", message=message,
+    )
