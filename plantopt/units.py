@@ -200,10 +200,19 @@ def resolve_kind(kind: str | Kind) -> Kind:
         return kind
     if kind in KINDS:
         return KINDS[kind]
+    if kind in ("", "1", "-"):
+        return KINDS["dimensionless"]
     try:
-        Q_(1.0, kind)
+        q = Q_(1.0, kind)
     except Exception as exc:  # a programming error in a unit model
         raise ValueError(f"unknown kind or unit {kind!r}") from exc
+    for k in _K:
+        # an SI unit text of a standard kind ("mol/s") resolves to that kind;
+        # "K" means a temperature (models name temperature differences by kind)
+        if k.name in ("temperature_difference", "pressure_difference", "fraction"):
+            continue
+        if k.dimensionality == q.dimensionality and abs(q.to(k.si).magnitude - 1.0) < 1e-12:
+            return k
     return Kind("custom", kind, f"a quantity in units of {kind}")
 
 
@@ -231,9 +240,34 @@ def from_si(value: float, kind: str | Kind, unit: str) -> float:
     return float(Q_(value, k.si).to(unit).magnitude)
 
 
+def kind_key(k: Kind) -> str:
+    """Text that :func:`resolve_kind` turns back into ``k`` (name, or SI unit for custom kinds)."""
+    return k.si if k.name == "custom" else k.name
+
+
 def unit_of(q: pint.Quantity) -> str:
-    """Short unit text of a quantity as the user wrote it (e.g. ``kmol/h``)."""
+    """Short unit text of a quantity (e.g. ``kmol/h``)."""
     return f"{q.units:~}".replace(" ", "")
+
+
+def unit_text(value: Any) -> str | None:
+    """The unit exactly as written in an input string (``"80 degC"`` gives ``degC``)."""
+    if isinstance(value, str):
+        m = _NUMBER.match(value)
+        if m and m.group(2) not in ("", "-"):
+            return m.group(2)
+    return None
+
+
+def delta_unit(unit: str) -> str:
+    """The difference unit of ``unit`` (``degC`` gives ``delta_degC``; others unchanged)."""
+    try:
+        u = ureg.Unit(unit)
+    except Exception:
+        return unit
+    if _is_offset(u):
+        return f"delta_{u}"
+    return unit
 
 
 def si_unit_text(kind: str | Kind) -> str:

@@ -171,10 +171,10 @@ class HeatExchanger(UnitModel):
         dt1, dt2 = self._approaches(s)
         return {
             "duty": (s.x["Q"], "W"),
-            "hot_end_approach": (dt1, "K"),
-            "cold_end_approach": (dt2, "K"),
+            "hot_end_approach": (dt1, "temperature_difference"),
+            "cold_end_approach": (dt2, "temperature_difference"),
             # defined only while both approaches are positive; a report value
-            "lmtd": (chen_lmtd(ca.fmax(dt1, 1e-9), ca.fmax(dt2, 1e-9)), "K"),
+            "lmtd": (chen_lmtd(ca.fmax(dt1, 1e-9), ca.fmax(dt2, 1e-9)), "temperature_difference"),
         }
 
     @classmethod

@@ -1,0 +1,417 @@
+"""Flowsheet to NLP, and NLP results back to quantities.
+
+The flowsheet becomes one equation-oriented casadi NLP::
+
+    x  = [stream variables (F_i, T, P per stream), unit internal variables]
+    p  = [every addressable input that enters an equation or the objective]
+    g  = [unit residuals (= 0), specification rows (= value, or a decision's
+          range when optimizing), limit rows (within their bounds),
+          utility-direction rows]
+    f  = -profit  (USD/s; minimised)
+
+Specification values and limit bounds live in ``lbg``/``ubg`` and prices
+and equipment data in ``p``, so every input can be overridden without
+rebuilding. Unit models of the same signature share one casadi Function.
+Units are stripped here (everything is SI); :class:`Assembly` maps the
+numbers back.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any
+
+import casadi as ca
+import numpy as np
+
+from plantopt import units as U
+from plantopt.flowsheet import (
+    STREAM_COMPONENT_QUANTITIES,
+    STREAM_QUANTITIES,
+    WHERE_PARAM,
+    Flowsheet,
+)
+from unitmodels.base import STREAM_P_BOUNDS, STREAM_T_BOUNDS, StreamSym, Symbols, UnitModel
+
+ROW_RESIDUAL = "residual"
+ROW_SPEC = "spec"
+ROW_LIMIT = "limit"
+ROW_DIRECTION = "direction"
+
+
+@dataclass(frozen=True)
+class Slot:
+    """One NLP variable: its address, kind and scale."""
+
+    path: str
+    kind: str
+    lower: float
+    upper: float
+    nominal: float
+
+
+@dataclass(frozen=True)
+class Row:
+    """One constraint row of the NLP.
+
+    Attributes
+    ----------
+    name : str
+        ``units.R1.eq3`` for residuals, the input address for
+        specification rows, ``limits.<name>`` for limits.
+    type : str
+        One of the ``ROW_*`` constants.
+    owner : str
+        Unit name (residual, spec) or limit / decision name.
+    """
+
+    name: str
+    type: str
+    owner: str
+    kind: str = "dimensionless"
+
+
+@dataclass
+class Assembly:
+    """The NLP of a flowsheet and the map between it and the flowsheet.
+
+    Attributes
+    ----------
+    nlp : dict
+        ``{"x", "f", "g", "p"}`` casadi SX expressions.
+    slots : list of Slot
+        One per entry of x.
+    rows : list of Row
+        One per entry of g.
+    p_paths : list of str
+        Input address of each entry of p.
+    """
+
+    fs: Flowsheet
+    nlp: dict
+    slots: list[Slot]
+    rows: list[Row]
+    p_paths: list[str]
+    stream_index: dict[str, tuple[np.ndarray, int, int]]
+    unit_var_index: dict[str, dict[str, int]]
+    spec_rows: dict[str, int]
+    limit_rows: dict[str, int]
+    direction_rows: dict[str, int]
+    report: ca.Function
+    report_names: list[str]
+    report_kinds: list[str]
+    breakdown_names: list[str]
+    _compiled: Any = None
+    _unit_functions: dict = field(default_factory=dict)
+
+    # ------------------------------------------------------------------ numbers
+    @property
+    def compiled(self):
+        """The solver's compiled form of the NLP (built once, on first use)."""
+        if self._compiled is None:
+            from plantopt.solver import compile_nlp
+
+            self._compiled = compile_nlp(self.nlp)
+        return self._compiled
+
+    @property
+    def n_equations(self) -> int:
+        return sum(r.type in (ROW_RESIDUAL, ROW_SPEC) for r in self.rows)
+
+    def p_values(self, fs: Flowsheet | None = None) -> np.ndarray:
+        fs = fs or self.fs
+        return np.array([fs.inputs[p].si for p in self.p_paths], dtype=float)
+
+    def x_nominal(self) -> np.ndarray:
+        return np.array([s.nominal for s in self.slots])
+
+    def x_bounds(self) -> tuple[np.ndarray, np.ndarray]:
+        return np.array([s.lower for s in self.slots]), np.array([s.upper for s in self.slots])
+
+    def g_bounds(self, mode: str = "simulate", fs: Flowsheet | None = None) -> tuple[np.ndarray, np.ndarray]:
+        """Row bounds for ``mode`` ``"simulate"`` (decisions fixed at their base
+        values, limits not enforced) or ``"optimize"`` (decisions within their
+        range, limits enforced)."""
+        fs = fs or self.fs
+        m = len(self.rows)
+        lbg = np.zeros(m)
+        ubg = np.zeros(m)
+        decisions = {d.input: d for d in fs.decisions}
+        for path, i in self.spec_rows.items():
+            v = fs.inputs[path].si
+            lbg[i] = ubg[i] = v
+            if mode == "optimize" and path in decisions:
+                d = decisions[path]
+                lbg[i] = fs.inputs[d.lower_path].si
+                ubg[i] = fs.inputs[d.upper_path].si
+        for lim in fs.limits:
+            i = self.limit_rows[lim.name]
+            if mode == "optimize":
+                lbg[i] = fs.inputs[lim.lower_path].si if lim.lower_path else -math.inf
+                ubg[i] = fs.inputs[lim.upper_path].si if lim.upper_path else math.inf
+            else:
+                lbg[i], ubg[i] = -math.inf, math.inf
+        for name, i in self.direction_rows.items():
+            sign = self._direction_sign[name]
+            if mode == "optimize":
+                lbg[i], ubg[i] = (0.0, math.inf) if sign > 0 else (-math.inf, 0.0)
+            else:
+                lbg[i], ubg[i] = -math.inf, math.inf
+        return lbg, ubg
+
+    def evaluate_report(self, x: np.ndarray, fs: Flowsheet | None = None) -> dict[str, float]:
+        """All reportable quantities (SI) at x: stream data, unit outputs, profit terms."""
+        vals = np.asarray(self.report(x, self.p_values(fs))).ravel()
+        return dict(zip(self.report_names, vals.tolist()))
+
+    # ------------------------------------------------------------------ initial point
+    def initial_point(self, fs: Flowsheet | None = None, passes: int = 3) -> np.ndarray:
+        """A start point from sequential passes through the units.
+
+        Each unit's own equations are solved with its inlets fixed, in flow
+        order from the feeds; streams of a recycle not yet known start as a
+        tenth of the unit's known inlets. A few passes give the simultaneous
+        Newton solve a point near the solution.
+        """
+        from plantopt.initialize import sequential_initial_point
+
+        return sequential_initial_point(self, fs or self.fs, passes=passes)
+
+
+def _stream_quantities(system: Any, st: StreamSym) -> dict[str, Any]:
+    tot = ca.sum1(st.F)
+    mw = ca.DM(system.mw)
+    mass = ca.dot(mw, st.F)
+    # small floor keeps fractions defined at zero flow; 1e-12 mol/s is far
+    # below any flow a plant reports
+    eps = 1e-12
+    out = {"temperature": st.T, "pressure": st.P, "molar_flow": tot, "mass_flow": mass}
+    for i, c in enumerate(system.names):
+        out[f"mole_fraction.{c}"] = st.F[i] / (tot + eps)
+        out[f"mass_fraction.{c}"] = mw[i] * st.F[i] / (mass + eps)
+        out[f"component_flow.{c}"] = st.F[i]
+        out[f"component_mass_flow.{c}"] = mw[i] * st.F[i]
+    return out
+
+
+def _stream_kinds(system: Any) -> dict[str, str]:
+    k = dict(STREAM_QUANTITIES)
+    for c in system.names:
+        for q, kind in STREAM_COMPONENT_QUANTITIES.items():
+            k[f"{q}.{c}"] = kind
+    return k
+
+
+def assemble(fs: Flowsheet) -> Assembly:
+    """Build the NLP of a checked flowsheet.
+
+    Parameters
+    ----------
+    fs : Flowsheet
+        From :func:`plantopt.flowsheet.load_flowsheet`.
+
+    Returns
+    -------
+    Assembly
+    """
+    system = fs.system
+    n = system.n
+    slots: list[Slot] = []
+    xs: list[Any] = []
+
+    def new_var(path: str, kind: str, lower: float, upper: float, nominal: float) -> Any:
+        v = ca.SX.sym(path)
+        slots.append(Slot(path, kind, lower, upper, nominal))
+        xs.append(v)
+        return v
+
+    # scale of flows from the feeds' specifications
+    f_scale = 0.0
+    for u in fs.feeds:
+        sp = fs.specs.get(u, {})
+        if "molar_flow" in sp:
+            f_scale += fs.inputs[sp["molar_flow"]].si
+        elif "mass_flow" in sp:
+            f_scale += fs.inputs[sp["mass_flow"]].si / float(np.mean(system.mw))
+    f_nominal = max(f_scale / max(n, 1), 1e-6)
+
+    streams: dict[str, StreamSym] = {}
+    stream_index: dict[str, tuple[np.ndarray, int, int]] = {}
+    for sname, st in fs.streams.items():
+        start = len(xs)
+        F = ca.vertcat(*[new_var(f"streams.{sname}.component_flow.{c}", "molar_flow", 0.0, math.inf, f_nominal) for c in system.names])
+        T = new_var(f"streams.{sname}.temperature", "temperature", *STREAM_T_BOUNDS, 300.0)
+        P = new_var(f"streams.{sname}.pressure", "pressure", *STREAM_P_BOUNDS, 1e5)
+        streams[sname] = StreamSym(F, T, P, st.phase)
+        stream_index[sname] = (np.arange(start, start + n), start + n, start + n + 1)
+
+    # parameters: every input that lives in p
+    p_paths = [path for path, iv in fs.inputs.items() if iv.where == WHERE_PARAM]
+    p_sym = {path: ca.SX.sym(path) for path in p_paths}
+
+    rows: list[Row] = []
+    gs: list[Any] = []
+    spec_rows: dict[str, int] = {}
+    unit_var_index: dict[str, dict[str, int]] = {}
+    unit_syms: dict[str, Symbols] = {}
+    functions: dict[tuple, ca.Function] = {}
+
+    for uid, model in fs.units.items():
+        # the unit's port streams, in port order
+        port_streams: dict[str, Any] = {}
+        phases: dict[str, list[str]] = {}
+        for port in model.ports():
+            conn = [(st.source if port.direction == "out" else st.dest, s) for s, st in fs.streams.items()]
+            mine = sorted(((e[2], s) for e, s in conn if e and e[0] == uid and e[1] == port.name))
+            syms = [streams[s] for _, s in mine]
+            phases[port.name] = [s.phase for s in syms]
+            port_streams[port.name] = syms if port.variadic else syms[0]
+        xv = {}
+        unit_var_index[uid] = {}
+        for v in model.variables():
+            unit_var_index[uid][v.name] = len(xs)
+            xv[v.name] = new_var(f"units.{uid}.{v.name}", U.kind_key(U.kind_for_si_unit(v.unit or "dimensionless")), v.lower, v.upper, v.nominal)
+        pv = {}
+        for prm in model.parameters():
+            if prm.per_component:
+                base = prm.address or f"units.{uid}.{prm.name}"
+                pv[prm.name] = ca.vertcat(*[p_sym[f"{base}.{c}"] for c in system.names])
+            else:
+                pv[prm.name] = p_sym[prm.address or f"units.{uid}.{prm.name}"]
+        s = Symbols(port_streams, xv, pv)
+        unit_syms[uid] = s
+        key = (model.signature(), tuple((k, tuple(v)) for k, v in sorted(phases.items())))
+        fn = functions.get(key)
+        if fn is None:
+            local = model.symbols(phases)
+            zl, pl = model.flatten(local)
+            res = model.residuals(local)
+            fn = ca.Function(f"{model.kind}_{len(functions)}", [zl, pl], [ca.vertcat(*res) if res else ca.SX(0, 1)])
+            functions[key] = fn
+        z, pz = model.flatten(s)
+        r = fn(z, pz)
+        names = model.residual_names()
+        for i in range(r.shape[0]):
+            rows.append(Row(f"units.{uid}.{names[i] if i < len(names) else f'eq{i}'}", ROW_RESIDUAL, uid))
+            gs.append(r[i])
+        for spec, path in fs.specs[uid].items():
+            expr = model.spec_expression(spec, s)
+            spec_rows[path] = len(rows)
+            rows.append(Row(path, ROW_SPEC, uid, fs.inputs[path].kind.name))
+            gs.append(expr)
+
+    # reportable quantities and limits
+    report_names: list[str] = []
+    report_kinds: list[str] = []
+    report_exprs: list[Any] = []
+    skinds = _stream_kinds(system)
+    for sname, st in streams.items():
+        for q, e in _stream_quantities(system, st).items():
+            report_names.append(f"streams.{sname}.{q}")
+            report_kinds.append(skinds[q])
+            report_exprs.append(e)
+    unit_outputs: dict[str, dict[str, tuple[Any, str]]] = {}
+    for uid, model in fs.units.items():
+        s = unit_syms[uid]
+        outs = dict(model.outputs(s))
+        for spec in (sp.name for sp in model.specs()):
+            if spec not in outs and "." not in spec:
+                try:
+                    outs[spec] = (model.spec_expression(spec, s), next(x.kind for x in model.specs() if x.name == spec))
+                except Exception:
+                    pass
+        for v in model.variables():
+            outs.setdefault(v.name, (s.x[v.name], v.unit or "dimensionless"))
+        unit_outputs[uid] = outs
+        for q, (e, unit) in outs.items():
+            report_names.append(f"units.{uid}.{q}")
+            report_kinds.append(U.kind_key(U.resolve_kind(unit)) if unit else "dimensionless")
+            report_exprs.append(e)
+
+    def quantity_expr(address: str) -> Any:
+        parts = address.split(".")
+        if parts[0] == "streams":
+            return _stream_quantities(system, streams[parts[1]])[".".join(parts[2:])]
+        return unit_outputs[parts[1]][parts[2]][0]
+
+    limit_rows: dict[str, int] = {}
+    for lim in fs.limits:
+        limit_rows[lim.name] = len(rows)
+        rows.append(Row(f"limits.{lim.name}", ROW_LIMIT, lim.name, lim.qkind.name))
+        gs.append(quantity_expr(lim.quantity))
+
+    # economics: profit in USD/s
+    terms: list[tuple[str, Any]] = []
+    mw = ca.DM(system.mw)
+
+    def amount(price_path: str, F: Any) -> Any:
+        iv = fs.inputs[price_path]
+        flow = ca.dot(mw, F) if iv.kind.name == "price_per_mass" else ca.sum1(F)
+        return p_sym[price_path] * flow
+
+    def port_F(uid: str, direction: str) -> Any:
+        for sname, st in fs.streams.items():
+            end = st.source if direction == "out" else st.dest
+            if end and end[0] == uid:
+                return streams[sname].F
+        raise KeyError(uid)
+
+    for uid, path in fs.product_prices.items():
+        terms.append((f"revenue.{uid}", amount(path, port_F(uid, "in"))))
+    for uid, path in fs.feed_prices.items():
+        terms.append((f"feed_cost.{uid}", -amount(path, port_F(uid, "out"))))
+    for uid, path in fs.disposal_prices.items():
+        terms.append((f"disposal.{uid}", -amount(path, port_F(uid, "in"))))
+    direction_rows: dict[str, int] = {}
+    direction_sign: dict[str, int] = {}
+    for uid, model in fs.units.items():
+        ut = model.utility()
+        if ut is None or ut not in fs.utilities:
+            continue
+        info = fs.utilities[ut]
+        s = unit_syms[uid]
+        if info.type == "electricity":
+            load = model.work(s)
+            sign = +1
+        else:
+            q = model.heat_duty(s)
+            # heating utilities deliver heat (Q >= 0); cooling water removes it
+            sign = -1 if info.type == "cooling_water" else +1
+            load = q if sign > 0 else -q
+        if info.type == "fuel":
+            load = load / info.efficiency
+        price = p_sym[info.price_path]
+        terms.append((f"utility.{uid}.{ut}", -price * load / info.energy_per_amount))
+        name = f"units.{uid}.{'work' if info.type == 'electricity' else 'duty'}_direction"
+        direction_rows[name] = len(rows)
+        direction_sign[name] = sign
+        rows.append(Row(name, ROW_DIRECTION, uid, "power"))
+        gs.append(model.work(s) if info.type == "electricity" else model.heat_duty(s))
+    for path in fs.fixed_costs:
+        terms.append((f"fixed.{path.split('.')[-1]}", -p_sym[path]))
+
+    profit = ca.SX(0)
+    for _, e in terms:
+        profit = profit + e
+    breakdown_names = [t[0] for t in terms]
+    for name, e in terms:
+        report_names.append(f"profit.{name}")
+        report_kinds.append("currency_rate")
+        report_exprs.append(e)
+    report_names.append("profit.total")
+    report_kinds.append("currency_rate")
+    report_exprs.append(profit)
+
+    x = ca.vertcat(*xs)
+    p = ca.vertcat(*[p_sym[q] for q in p_paths]) if p_paths else ca.SX(0, 1)
+    g = ca.vertcat(*gs) if gs else ca.SX(0, 1)
+    nlp = {"x": x, "f": -profit, "g": g, "p": p}
+    report = ca.Function("report", [x, p], [ca.vertcat(*report_exprs)])
+    asm = Assembly(fs, nlp, slots, rows, p_paths, stream_index, unit_var_index, spec_rows, limit_rows,
+                   direction_rows, report, report_names, report_kinds, breakdown_names)
+    asm._direction_sign = direction_sign  # type: ignore[attr-defined]
+    asm._unit_functions = functions
+    asm._streams = streams  # type: ignore[attr-defined]
+    asm._unit_syms = unit_syms  # type: ignore[attr-defined]
+    return asm

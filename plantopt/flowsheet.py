@@ -1,0 +1,832 @@
+"""Loading and checking a flowsheet file into a :class:`Flowsheet`.
+
+Every problem in a file is collected and reported together as
+:class:`plantopt.errors.InputErrors`: unknown keys, wrong units, unknown
+components, dangling or doubly connected ports, duplicate names, mole
+fractions that do not sum to one, negative flows, non-finite numbers.
+
+Every numeric input gets an *address* (``units.R1.volume``,
+``economics.feeds.FEED_A``, ``limits.reactor_temperature.upper``) through
+which later commands override (``--set``) or vary it without rebuilding the
+equation system.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import math
+import tomllib
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+from typing import Any, Iterable
+
+import pint
+from pydantic import ValidationError
+
+import unitmodels  # noqa: F401  (registers the unit models)
+import unitmodels.units  # noqa: F401  (the unit-model classes)
+from plantopt import units as U
+from plantopt.errors import DimensionError, InputError, InputErrors
+from plantopt.schema import FlowsheetFile
+from unitmodels.base import REGISTRY, UnitConfigError, UnitModel
+
+MAX_FILE_BYTES = 4 * 1024 * 1024
+"""Default largest flowsheet file accepted (bytes)."""
+
+STREAM_QUANTITIES = {
+    "temperature": "temperature",
+    "pressure": "pressure",
+    "molar_flow": "molar_flow",
+    "mass_flow": "mass_flow",
+}
+STREAM_COMPONENT_QUANTITIES = {
+    "mole_fraction": "fraction",
+    "mass_fraction": "fraction",
+    "component_flow": "molar_flow",
+    "component_mass_flow": "mass_flow",
+}
+
+# Where an input lives once the equation system is built.
+WHERE_PARAM = "param"      # an entry of the NLP parameter vector p
+WHERE_SPEC = "spec"        # the value a specification row is fixed to
+WHERE_LIMIT = "limit"      # a bound of a limit row
+WHERE_DECISION = "decision"  # a bound of a decision's range
+
+
+@dataclass
+class InputValue:
+    """One addressable numeric input.
+
+    Attributes
+    ----------
+    path : str
+        Address, e.g. ``units.R1.volume``.
+    category : str
+        ``price``, ``limit``, ``decision``, ``feed``, ``equipment``,
+        ``kinetics``, ``specification``, ``utility``, ``fixed``.
+    kind : plantopt.units.Kind
+        What quantity it is (fixes the SI unit).
+    si : float
+        Current value in the internal SI unit.
+    unit : str
+        Unit the file used (values are shown and ``--set`` numbers read in it).
+    where : str
+        One of the ``WHERE_*`` constants.
+    """
+
+    path: str
+    category: str
+    kind: U.Kind
+    si: float
+    unit: str
+    where: str
+    lower: float = -math.inf
+    upper: float = math.inf
+
+    def display(self) -> float:
+        return U.from_si(self.si, self.kind, self.unit) if self.unit else self.si
+
+
+@dataclass
+class StreamInfo:
+    """A stream: which port it leaves and which it enters."""
+
+    name: str
+    source: tuple[str, str, int] | None = None  # (unit, port, index)
+    dest: tuple[str, str, int] | None = None
+    phase: str = "liquid"
+
+
+@dataclass
+class LimitInfo:
+    name: str
+    quantity: str
+    kind: str  # safety | spec | bound
+    qkind: U.Kind
+    unit: str
+    description: str = ""
+    lower_path: str | None = None
+    upper_path: str | None = None
+
+
+@dataclass
+class DecisionInfo:
+    name: str
+    input: str  # address of the specification
+    unit_name: str
+    spec: str
+    qkind: U.Kind
+    unit: str
+    description: str = ""
+
+    @property
+    def lower_path(self) -> str:
+        return f"decisions.{self.name}.lower"
+
+    @property
+    def upper_path(self) -> str:
+        return f"decisions.{self.name}.upper"
+
+
+@dataclass
+class UtilityInfo:
+    name: str
+    type: str
+    price_path: str
+    # SI energy per priced amount: J per kg for steam or water priced per
+    # mass; 1 for prices per energy.
+    energy_per_amount: float = 1.0
+    efficiency: float = 1.0
+
+
+@dataclass
+class Flowsheet:
+    """A checked flowsheet, ready to assemble.
+
+    Attributes
+    ----------
+    file : str
+        File name used in messages.
+    sha256 : str
+        Hash of the file's bytes (reports quote it).
+    """
+
+    file: str
+    sha256: str
+    name: str
+    description: str
+    notice: str
+    display: dict[str, str]
+    system: Any
+    reactions: dict[str, Any]
+    units: dict[str, UnitModel]
+    unit_types: dict[str, str]
+    streams: dict[str, StreamInfo]
+    specs: dict[str, dict[str, str]]  # unit -> spec name -> input path
+    inputs: dict[str, InputValue]
+    limits: list[LimitInfo]
+    decisions: list[DecisionInfo]
+    utilities: dict[str, UtilityInfo]
+    feed_prices: dict[str, str]  # feed unit -> input path
+    product_prices: dict[str, str]
+    disposal_prices: dict[str, str]
+    fixed_costs: list[str]
+    profit_unit: str
+    split_index: dict[tuple[str, str], int] = field(default_factory=dict)
+
+    # ------------------------------------------------------------------ inputs
+    def set_input(self, path: str, value: Any, *, source: str = "<command line>") -> None:
+        """Override one input by address; a bare number is in the file's unit.
+
+        Raises
+        ------
+        InputError
+            Unknown address, wrong unit, or a value outside the input's range.
+        """
+        if path not in self.inputs:
+            near = [p for p in self.inputs if p.split(".")[-1] == path.split(".")[-1]][:3]
+            hint = f" (did you mean {', '.join(near)}?)" if near else " (see 'plantopt inputs')"
+            raise InputError(source, path, f"no such input{hint}")
+        iv = self.inputs[path]
+        if isinstance(value, str):
+            try:
+                num = float(value)
+                text: Any = f"{num} {iv.unit}" if iv.unit else num
+            except ValueError:
+                text = value
+        else:
+            text = f"{value} {iv.unit}" if iv.unit else value
+        q = U.parse_quantity(text, iv.kind, file=source, path=path)
+        si = U.to_si(q, iv.kind)
+        if not (iv.lower <= si <= iv.upper):
+            raise InputError(source, path, f"value {value} is outside the allowed range of this input")
+        iv.si = si
+
+    def value(self, path: str) -> float:
+        return self.inputs[path].si
+
+    def copy(self) -> "Flowsheet":
+        """A copy whose input values can be changed independently (models are shared)."""
+        new = replace(self)
+        new.inputs = {k: replace(v) for k, v in self.inputs.items()}
+        return new
+
+    @property
+    def feeds(self) -> list[str]:
+        return [u for u, t in self.unit_types.items() if t == "feed"]
+
+    @property
+    def products(self) -> list[str]:
+        return [u for u, t in self.unit_types.items() if t == "product"]
+
+
+# ---------------------------------------------------------------------- loading
+def load_flowsheet(path: str | Path, *, max_bytes: int = MAX_FILE_BYTES) -> Flowsheet:
+    """Read, validate and check a flowsheet file.
+
+    Parameters
+    ----------
+    path : str or Path
+        The TOML file.
+    max_bytes : int
+        Files larger than this are refused before parsing.
+
+    Returns
+    -------
+    Flowsheet
+
+    Raises
+    ------
+    InputErrors
+        Every problem found, each naming the file and field.
+    """
+    p = Path(path)
+    fname = p.name
+    try:
+        raw = p.read_bytes()
+    except FileNotFoundError:
+        raise InputErrors([InputError(str(path), "", "file not found")]) from None
+    except IsADirectoryError:
+        raise InputErrors([InputError(str(path), "", "is a directory, expected a flowsheet file")]) from None
+    except OSError as exc:
+        raise InputErrors([InputError(str(path), "", f"cannot read file ({exc.strerror})")]) from None
+    return loads_flowsheet(raw, fname, max_bytes=max_bytes)
+
+
+def loads_flowsheet(raw: bytes | str, fname: str = "<string>", *, max_bytes: int = MAX_FILE_BYTES) -> Flowsheet:
+    """Like :func:`load_flowsheet` from the file's bytes or text."""
+    data_bytes = raw.encode() if isinstance(raw, str) else raw
+    if len(data_bytes) > max_bytes:
+        raise InputErrors([InputError(fname, "", f"file is {len(data_bytes)} bytes, larger than the limit of {max_bytes} bytes")])
+    if not data_bytes.strip():
+        raise InputErrors([InputError(fname, "", "file is empty, expected a flowsheet")])
+    try:
+        text = data_bytes.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise InputErrors([InputError(fname, "", f"not UTF-8 text (byte {exc.start})")]) from None
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputErrors([InputError(fname, "", f"not valid TOML: {exc}")]) from None
+    except RecursionError:
+        raise InputErrors([InputError(fname, "", "tables nested too deeply")]) from None
+    try:
+        doc = FlowsheetFile.model_validate(data)
+    except ValidationError as exc:
+        raise InputErrors([_pyd_error(fname, e) for e in exc.errors()]) from None
+    return _Builder(fname, hashlib.sha256(data_bytes).hexdigest(), doc).build()
+
+
+def _pyd_error(fname: str, e: dict) -> InputError:
+    path = ".".join(str(x) for x in e.get("loc", ()))
+    t = e.get("type", "")
+    if t == "extra_forbidden":
+        return InputError(fname, path, "unknown key (check the spelling)")
+    if t == "missing":
+        return InputError(fname, path, "missing (required)")
+    return InputError(fname, path, e.get("msg", "invalid"))
+
+
+class _Builder:
+    """Turns a shape-checked file into a :class:`Flowsheet`, collecting errors."""
+
+    def __init__(self, fname: str, sha: str, doc: FlowsheetFile):
+        self.f = fname
+        self.sha = sha
+        self.doc = doc
+        self.errors: list[InputError] = []
+        self.inputs: dict[str, InputValue] = {}
+
+    def err(self, path: str, problem: str) -> None:
+        self.errors.append(InputError(self.f, path, problem))
+
+    def quantity(self, value: Any, kind: str | U.Kind, path: str) -> pint.Quantity | None:
+        try:
+            return U.parse_quantity(value, kind, file=self.f, path=path)
+        except InputError as e:
+            self.errors.append(e)
+            return None
+
+    def add_input(self, path: str, value: Any, kind: str | U.Kind, category: str, where: str,
+                  lower: float = -math.inf, upper: float = math.inf) -> InputValue | None:
+        k = U.resolve_kind(kind)
+        q = self.quantity(value, k, path)
+        if q is None:
+            return None
+        si = U.to_si(q, k)
+        if abs(si) > 1e15:
+            self.err(path, f"value {value!r} is absurdly large")
+            return None
+        if not (lower <= si <= upper):
+            rng = {(0.0, math.inf): "not negative"}.get((lower, upper), f"between {lower:g} and {upper:g} (SI)")
+            self.err(path, f"expected a value {rng}, got {value!r}")
+            return None
+        unit = (U.unit_text(value) or U.unit_of(q)) if k.si != "dimensionless" else ""
+        iv = InputValue(path, category, k, si, unit, where, lower, upper)
+        self.inputs[path] = iv
+        return iv
+
+    # ------------------------------------------------------------------ pieces
+    def components(self):
+        from unitmodels.thermo import Component, ComponentSystem
+
+        comps = []
+        for cid, c in self.doc.components.items():
+            base = f"components.{cid}"
+            try:
+                if c.source:
+                    extra = [k for k in ("molar_mass", "formation_enthalpy", "cp_gas", "cp_liquid", "liquid_density", "vaporisation_enthalpy", "antoine") if getattr(c, k) is not None]
+                    if extra:
+                        self.err(f"{base}.{extra[0]}", "give either 'source' (property data by name or CAS) or user-defined data, not both")
+                        continue
+                    comp = Component.from_name(c.source)
+                    comps.append(replace(comp, name=cid))
+                else:
+                    need = {"molar_mass": "molar_mass", "formation_enthalpy": "molar_energy", "cp_gas": "heat_capacity_molar",
+                            "cp_liquid": "heat_capacity_molar", "liquid_density": "density", "vaporisation_enthalpy": "molar_energy"}
+                    vals = {}
+                    for key, kind in need.items():
+                        v = getattr(c, key)
+                        if v is None:
+                            self.err(f"{base}.{key}", "missing (a user-defined component needs it; or give 'source')")
+                            continue
+                        q = self.quantity(v, kind, f"{base}.{key}")
+                        if q is not None:
+                            vals[key] = U.to_si(q, kind)
+                    if c.antoine is None:
+                        self.err(f"{base}.antoine", "missing (a user-defined component needs Antoine a, b, c for log10(P/Pa) = a - b/(T/K + c))")
+                    if len(vals) < len(need) or c.antoine is None:
+                        continue
+                    comps.append(Component.from_data(
+                        name=cid, molar_mass=vals["molar_mass"], formation_enthalpy=vals["formation_enthalpy"],
+                        cp_gas=vals["cp_gas"], cp_liquid=vals["cp_liquid"], antoine_a=c.antoine.a, antoine_b=c.antoine.b,
+                        antoine_c=c.antoine.c, liquid_density=vals["liquid_density"], hvap_298=vals["vaporisation_enthalpy"],
+                        formula=c.formula))
+            except (KeyError, ValueError, LookupError) as exc:
+                msg = exc.args[0] if exc.args else str(exc)
+                self.err(f"{base}.source" if c.source else base, f"unknown component or incomplete property data: {msg}")
+        if not comps:
+            if not self.doc.components:
+                self.err("components", "no components given")
+            return None
+        return ComponentSystem(comps)
+
+    def reactions(self, system):
+        from unitmodels.kinetics import Reaction
+
+        out = {}
+        for rid, r in self.doc.reactions.items():
+            base = f"reactions.{rid}"
+            bad = False
+            for table in ("stoichiometry", "orders", "reverse_orders"):
+                for comp in (getattr(r, table) or {}):
+                    if system is not None and comp not in system.names:
+                        self.err(f"{base}.{table}.{comp}", f"unknown component (known: {', '.join(system.names)})")
+                        bad = True
+            if bad or system is None:
+                continue
+            t_ref = None
+            if r.reference_temperature is not None:
+                q = self.quantity(r.reference_temperature, "temperature", f"{base}.reference_temperature")
+                if q is None:
+                    continue
+                t_ref = U.to_si(q, "temperature")
+            try:
+                rx = Reaction(rid, dict(r.stoichiometry), dict(r.orders) if r.orders is not None else None,
+                              basis=r.basis, rate_per=r.rate_per, reversible=r.reversible,
+                              reverse_orders=dict(r.reverse_orders) if r.reverse_orders is not None else None,
+                              reference_temperature=t_ref)
+                rx.validate(system)
+            except UnitConfigError as e:
+                self.err(e.field if e.field.startswith("reactions.") else f"{base}.{e.field}", e.problem)
+                continue
+            for prm in rx.parameters():
+                name = prm.address.split(".")[-1] if prm.address else prm.name
+                val = getattr(r, name, None)
+                if val is None:
+                    self.err(f"{base}.{name}", "missing")
+                    continue
+                self.add_input(prm.address or f"{base}.{name}", val, prm.kind, "kinetics", WHERE_PARAM, prm.lower, prm.upper)
+            out[rid] = rx
+        return out
+
+    def units(self, system, reactions):
+        models: dict[str, UnitModel] = {}
+        types: dict[str, str] = {}
+        streams: dict[str, StreamInfo] = {}
+        specs: dict[str, dict[str, str]] = {}
+        split_index: dict[tuple[str, str], int] = {}
+        if not self.doc.units:
+            self.err("units", "no unit operations given")
+        for uid, table in self.doc.units.items():
+            base = f"units.{uid}"
+            if not isinstance(table, dict):
+                self.err(base, "expected a table")
+                continue
+            t = table.get("type")
+            if t is None:
+                self.err(f"{base}.type", f"missing (one of: {', '.join(sorted(REGISTRY))})")
+                continue
+            if t not in REGISTRY:
+                self.err(f"{base}.type", f"unknown unit type {t!r} (known: {', '.join(sorted(REGISTRY))})")
+                continue
+            cls = REGISTRY[t]
+            # ports are declared on the class; an instance is needed for counts
+            probe_ports = cls.ports(cls.__new__(cls))  # ports() must not depend on options
+            port_counts = {}
+            connections = {}
+            for port in probe_ports:
+                v = table.get(port.name)
+                if v is None:
+                    self.err(f"{base}.{port.name}", f"missing ({'a list of stream names' if port.variadic else 'a stream name'})")
+                    continue
+                names = v if port.variadic else [v]
+                if not isinstance(names, list) or not all(isinstance(n, str) and n for n in names) or (port.variadic and not names):
+                    self.err(f"{base}.{port.name}", f"expected {'a list of stream names' if port.variadic else 'a stream name'}, got {v!r}")
+                    continue
+                if port.variadic:
+                    port_counts[port.name] = len(names)
+                connections[port.name] = names
+            option_names = {o.name for o in cls.options_declared}
+            options = {k: v for k, v in table.items() if k in option_names}
+            if t in ("cstr",) or "reactions" in option_names:
+                pass
+            rx_list = []
+            if "reactions" in options:
+                rnames = options["reactions"]
+                if isinstance(rnames, list):
+                    for rn in rnames:
+                        if rn not in reactions:
+                            if rn not in self.doc.reactions:
+                                self.err(f"{base}.reactions", f"unknown reaction {rn!r} (known: {', '.join(self.doc.reactions) or 'none'})")
+                            continue
+                        rx_list.append(reactions[rn])
+            if system is None or len(connections) < len(probe_ports):
+                continue
+            try:
+                model = cls(uid, system, options=options, port_counts=port_counts, reactions=rx_list)
+            except UnitConfigError as e:
+                self.err(f"{base}.{e.field}", e.problem)
+                continue
+            models[uid] = model
+            types[uid] = t
+            for port in model.ports():
+                for i, sname in enumerate(connections[port.name]):
+                    st = streams.setdefault(sname, StreamInfo(sname))
+                    end = (uid, port.name, i)
+                    if port.direction == "out":
+                        if st.source is not None:
+                            self.err(f"{base}.{port.name}", f"stream {sname!r} already leaves units.{st.source[0]}.{st.source[1]}; a stream has one source")
+                        st.source = end
+                    else:
+                        if st.dest is not None:
+                            self.err(f"{base}.{port.name}", f"stream {sname!r} already enters units.{st.dest[0]}.{st.dest[1]}; a stream has one destination (use a splitter)")
+                        st.dest = end
+            # numeric keys: parameters and specifications
+            params = {prm.name: prm for prm in model.parameters() if not prm.address}
+            spec_decl = {sp.name: sp for sp in model.specs()}
+            known = {"type"} | {p.name for p in probe_ports} | option_names | set(params) | {s.split(".")[0] for s in spec_decl}
+            for key in table:
+                if key not in known:
+                    self.err(f"{base}.{key}", f"unknown key for a {t} (known: {', '.join(sorted(known - {'type'}))})")
+            for prm in params.values():
+                v = table.get(prm.name)
+                path = f"{base}.{prm.name}"
+                if prm.per_component:
+                    if v is None:
+                        if prm.default is None:
+                            self.err(path, f"missing (a table of component values: {', '.join(system.names)})")
+                            continue
+                        v = {}
+                    if not isinstance(v, dict):
+                        self.err(path, f"expected a table keyed by component ({', '.join(system.names)})")
+                        continue
+                    for comp in v:
+                        if comp not in system.names:
+                            self.err(f"{path}.{comp}", f"unknown component (known: {', '.join(system.names)})")
+                    total = 0.0
+                    ok = True
+                    for comp in system.names:
+                        iv = self.add_input(f"{path}.{comp}", v.get(comp, prm.default if prm.default is not None else 0.0),
+                                            prm.kind, prm.category, WHERE_PARAM, prm.lower, prm.upper)
+                        ok = ok and iv is not None
+                        total += iv.si if iv else 0.0
+                    if ok and prm.name == "composition" and abs(total - 1.0) > 1e-6:
+                        self.err(path, f"mole fractions sum to {total:.6g}, expected 1")
+                else:
+                    if v is None:
+                        if prm.default is None:
+                            self.err(path, f"missing ({U.resolve_kind(prm.kind).noun})")
+                            continue
+                        iv = InputValue(path, prm.category, U.resolve_kind(prm.kind), float(prm.default),
+                                        U.si_unit_text(prm.kind), WHERE_PARAM, prm.lower, prm.upper)
+                        self.inputs[path] = iv
+                    else:
+                        self.add_input(path, v, prm.kind, prm.category, WHERE_PARAM, prm.lower, prm.upper)
+            # specifications
+            given: dict[str, str] = {}
+            variadic_out = [p for p in model.ports() if p.variadic]
+            for sname, sp in spec_decl.items():
+                head, _, idx = sname.partition(".")
+                if idx:
+                    tbl = table.get(head)
+                    if tbl is None:
+                        continue
+                    if not isinstance(tbl, dict):
+                        self.err(f"{base}.{head}", "expected a table keyed by outlet stream name")
+                        continue
+                    if not variadic_out:
+                        continue
+                    vport = variadic_out[0]
+                    snames = connections.get(vport.name, [])
+                    i = int(idx)
+                    if i >= len(snames):
+                        continue
+                    stream_name = snames[i]
+                    split_index[(uid, stream_name)] = i
+                    for key in tbl:
+                        if key not in snames:
+                            if (f"{base}.{head}.{key}") not in [e.path for e in self.errors]:
+                                self.err(f"{base}.{head}.{key}", f"not an outlet stream of this unit ({', '.join(snames)})")
+                    if stream_name in tbl:
+                        path = f"{base}.{head}.{stream_name}"
+                        if self.add_input(path, tbl[stream_name], sp.kind, "specification", WHERE_SPEC, *_spec_range(sp.kind)):
+                            given[sname] = path
+                else:
+                    if sname in table:
+                        path = f"{base}.{sname}"
+                        if self.add_input(path, table[sname], sp.kind, "feed" if t == "feed" else "specification",
+                                          WHERE_SPEC, *_spec_range(sp.kind)):
+                            given[sname] = path
+            specs[uid] = given
+            problem = model.check_specs(set(given)) if hasattr(model, "check_specs") else None
+            if problem is None and not hasattr(model, "check_specs"):
+                for g, alts in model.spec_groups().items():
+                    n = sum(a in given for a in alts)
+                    if n != 1:
+                        problem = f"give exactly one of {', '.join(alts)}"
+                        break
+            if problem:
+                self.err(base, problem)
+        for sname, st in streams.items():
+            if st.source is None:
+                u, p, _ = st.dest
+                self.err(f"units.{u}.{p}", f"stream {sname!r} enters here but no unit produces it (a feed or an outlet)")
+            if st.dest is None:
+                u, p, _ = st.source
+                self.err(f"units.{u}.{p}", f"stream {sname!r} leaves here but no unit takes it in (add a product unit)")
+        return models, types, streams, specs, split_index
+
+    def economics(self, types: dict[str, str]):
+        e = self.doc.economics
+        feeds, products, disposal = {}, {}, {}
+        for table, dest, want, cat in ((e.feeds, feeds, "feed", "price"), (e.products, products, "product", "price"),
+                                       (e.disposal, disposal, "product", "price")):
+            section = {id(e.feeds): "feeds", id(e.products): "products", id(e.disposal): "disposal"}[id(table)]
+            for uname, price in table.items():
+                path = f"economics.{section}.{uname}"
+                if uname not in types:
+                    self.err(path, f"no unit named {uname!r}")
+                    continue
+                if types[uname] != want:
+                    self.err(path, f"unit {uname!r} is a {types[uname]}, expected a {want} unit")
+                    continue
+                kind = _price_kind(price)
+                if self.add_input(path, price, kind, cat, WHERE_PARAM):
+                    dest[uname] = path
+        utilities = {}
+        for name, u in e.utilities.items():
+            base = f"economics.utilities.{name}"
+            kind = _price_kind(u.price, allow=("price_per_energy", "price_per_mass"))
+            if u.type in ("electricity", "fuel") and kind != "price_per_energy":
+                kind = "price_per_energy"
+            iv = self.add_input(f"{base}.price", u.price, kind, "price", WHERE_PARAM)
+            if iv is None:
+                continue
+            info = UtilityInfo(name, u.type, f"{base}.price")
+            if iv.kind.name == "price_per_mass":
+                if u.type == "steam":
+                    if u.pressure is None:
+                        self.err(f"{base}.pressure", "missing: steam priced per mass needs its pressure (latent heat from IAPWS-IF97)")
+                        continue
+                    q = self.quantity(u.pressure, "pressure", f"{base}.pressure")
+                    if q is None:
+                        continue
+                    try:
+                        info.energy_per_amount = steam_latent_heat(U.to_si(q, "pressure"))
+                    except ValueError as exc:
+                        self.err(f"{base}.pressure", str(exc))
+                        continue
+                elif u.type == "cooling_water":
+                    if u.temperature_rise is None:
+                        self.err(f"{base}.temperature_rise", "missing: cooling water priced per mass needs its temperature rise")
+                        continue
+                    q = self.quantity(u.temperature_rise, "temperature_difference", f"{base}.temperature_rise")
+                    if q is None:
+                        continue
+                    dt = U.to_si(q, "temperature_difference")
+                    if dt <= 0:
+                        self.err(f"{base}.temperature_rise", "expected a positive temperature rise")
+                        continue
+                    # 4186 J/kg/K: specific heat of liquid water near 25 degC (IAPWS-95, common practice value)
+                    info.energy_per_amount = 4186.0 * dt
+            if u.efficiency is not None:
+                q = self.quantity(u.efficiency, "fraction", f"{base}.efficiency")
+                if q is not None:
+                    info.efficiency = max(U.to_si(q, "fraction"), 1e-6)
+            utilities[name] = info
+        fixed = []
+        for name, v in e.fixed.items():
+            if self.add_input(f"economics.fixed.{name}", v, "currency_rate", "fixed", WHERE_PARAM):
+                fixed.append(f"economics.fixed.{name}")
+        try:
+            pu = U.ureg.Unit(e.profit_unit)
+            if U.Q_(1.0, pu).dimensionality != U.KINDS["currency_rate"].dimensionality:
+                self.err("economics.profit_unit", f"expected money per time (e.g. USD/h), got {e.profit_unit!r}")
+        except Exception:
+            self.err("economics.profit_unit", f"unknown unit {e.profit_unit!r}")
+        return feeds, products, disposal, utilities, fixed
+
+    def build(self) -> Flowsheet:
+        d = self.doc
+        system = self.components()
+        reactions = self.reactions(system)
+        models, types, streams, specs, split_index = self.units(system, reactions)
+        feeds, products, disposal, utilities, fixed = self.economics(types)
+        for uid, m in models.items():
+            ut = m.utility()
+            if ut is not None and ut not in utilities and ut not in d.economics.utilities:
+                self.err(f"units.{uid}.utility", f"unknown utility {ut!r} (defined: {', '.join(d.economics.utilities) or 'none'})")
+        fs = Flowsheet(
+            file=self.f, sha256=self.sha, name=d.flowsheet.name, description=d.flowsheet.description,
+            notice=d.flowsheet.notice, display=dict(d.flowsheet.display), system=system, reactions=reactions,
+            units=models, unit_types=types, streams=streams, specs=specs, inputs=self.inputs, limits=[],
+            decisions=[], utilities=utilities, feed_prices=feeds, product_prices=products,
+            disposal_prices=disposal, fixed_costs=fixed, profit_unit=d.economics.profit_unit, split_index=split_index,
+        )
+        if not self.errors:
+            _propagate_phases(fs)
+            self.decisions(fs)
+            self.limits(fs)
+        if self.errors:
+            raise InputErrors(self.errors)
+        return fs
+
+    def decisions(self, fs: Flowsheet) -> None:
+        for name, dec in self.doc.decisions.items():
+            base = f"decisions.{name}"
+            target = dec.input
+            parts = target.split(".")
+            if len(parts) < 3 or parts[0] != "units" or parts[1] not in fs.units:
+                self.err(f"{base}.input", f"expected the address of a unit specification (units.<unit>.<spec>), got {target!r}")
+                continue
+            uid = parts[1]
+            spec_by_path = {path: s for s, path in fs.specs[uid].items()}
+            if target not in spec_by_path:
+                avail = ", ".join(fs.specs[uid].values()) or "none"
+                self.err(f"{base}.input", f"{target!r} is not a specification given in the file (specifications of {uid}: {avail})")
+                continue
+            if any(d.input == target for d in fs.decisions):
+                self.err(f"{base}.input", f"{target!r} is already a decision")
+                continue
+            iv = fs.inputs[target]
+            iv.category = "decision"
+            lo = self.add_input(f"{base}.lower", dec.lower, iv.kind, "decision", WHERE_DECISION, iv.lower, iv.upper)
+            hi = self.add_input(f"{base}.upper", dec.upper, iv.kind, "decision", WHERE_DECISION, iv.lower, iv.upper)
+            if lo and hi:
+                if lo.unit != iv.unit and iv.unit:
+                    pass
+                if lo.si > hi.si:
+                    self.err(base, "lower is above upper")
+                    continue
+                if not lo.si - 1e-12 * abs(lo.si) <= iv.si <= hi.si + 1e-12 * abs(hi.si):
+                    self.err(base, f"the base value {iv.display():g} {iv.unit} of {target} lies outside [lower, upper]")
+                    continue
+            fs.decisions.append(DecisionInfo(name, target, uid, spec_by_path[target], iv.kind, iv.unit, dec.description))
+
+    def limits(self, fs: Flowsheet) -> None:
+        for name, lim in self.doc.limits.items():
+            base = f"limits.{name}"
+            try:
+                qkind = quantity_kind(fs, lim.quantity)
+            except KeyError as exc:
+                self.err(f"{base}.quantity", exc.args[0])
+                continue
+            if lim.lower is None and lim.upper is None:
+                self.err(base, "give lower, upper or both")
+                continue
+            info = LimitInfo(name, lim.quantity, lim.kind, qkind, "", lim.description)
+            lo = hi = None
+            if lim.lower is not None:
+                lo = self.add_input(f"{base}.lower", lim.lower, qkind, "limit", WHERE_LIMIT)
+                if lo:
+                    info.lower_path = lo.path
+                    info.unit = lo.unit
+            if lim.upper is not None:
+                hi = self.add_input(f"{base}.upper", lim.upper, qkind, "limit", WHERE_LIMIT)
+                if hi:
+                    info.upper_path = hi.path
+                    info.unit = info.unit or hi.unit
+            if lo and hi and lo.si > hi.si:
+                self.err(base, "lower is above upper")
+                continue
+            if (lim.lower is None or lo) and (lim.upper is None or hi):
+                fs.limits.append(info)
+
+
+def _spec_range(kind: str) -> tuple[float, float]:
+    k = U.resolve_kind(kind).name
+    if k in ("molar_flow", "mass_flow", "volume_flow", "temperature", "pressure", "volume"):
+        return 0.0, math.inf
+    if k == "fraction":
+        return 0.0, 1.0
+    return -math.inf, math.inf
+
+
+def _price_kind(value: Any, allow: Iterable[str] = ("price_per_mass", "price_per_mole")) -> str:
+    """Pick the price kind from the unit text; the parse reports a mismatch."""
+    allow = tuple(allow)
+    for k in allow:
+        try:
+            U.parse_quantity(value, k)
+            return k
+        except InputError:
+            continue
+    return U.Kind("price", "USD/kg", " or ".join(U.KINDS[k].noun for k in allow))  # type: ignore[return-value]
+
+
+def steam_latent_heat(pressure_pa: float) -> float:
+    """Latent heat of saturated steam at a pressure, J/kg (IAPWS-IF97 via ``iapws``)."""
+    from iapws import IAPWS97
+
+    mpa = pressure_pa / 1e6
+    if not 611.657e-6 < mpa < 22.064:
+        raise ValueError(f"steam pressure {pressure_pa:g} Pa outside the saturation range (611.657 Pa to 22.064 MPa)")
+    liq = IAPWS97(P=mpa, x=0.0)
+    vap = IAPWS97(P=mpa, x=1.0)
+    return (vap.h - liq.h) * 1e3
+
+
+def quantity_kind(fs: Flowsheet, address: str) -> U.Kind:
+    """Kind of a limitable quantity address; KeyError with a message if unknown."""
+    parts = address.split(".")
+    if len(parts) >= 3 and parts[0] == "streams":
+        sname, q = parts[1], parts[2]
+        if sname not in fs.streams:
+            raise KeyError(f"no stream named {sname!r}")
+        if q in STREAM_QUANTITIES and len(parts) == 3:
+            return U.KINDS[STREAM_QUANTITIES[q]]
+        if q in STREAM_COMPONENT_QUANTITIES and len(parts) == 4:
+            if parts[3] not in fs.system.names:
+                raise KeyError(f"unknown component {parts[3]!r} (known: {', '.join(fs.system.names)})")
+            return U.KINDS[STREAM_COMPONENT_QUANTITIES[q]]
+        raise KeyError(f"unknown stream quantity in {address!r} (known: {', '.join(list(STREAM_QUANTITIES) + [k + '.<component>' for k in STREAM_COMPONENT_QUANTITIES])})")
+    if len(parts) == 3 and parts[0] == "units":
+        uid, q = parts[1], parts[2]
+        if uid not in fs.units:
+            raise KeyError(f"no unit named {uid!r}")
+        m = fs.units[uid]
+        s = m.symbols()
+        outs = m.outputs(s)
+        if q in outs:
+            return U.resolve_kind(outs[q][1])
+        specs = {sp.name: sp for sp in m.specs()}
+        if q in specs:
+            return U.resolve_kind(specs[q].kind)
+        vars_ = {v.name: v for v in m.variables()}
+        if q in vars_:
+            return U.kind_for_si_unit(vars_[q].unit or "dimensionless")
+        raise KeyError(f"unit {uid!r} has no quantity {q!r} (known: {', '.join(sorted(set(outs) | set(specs)))})")
+    raise KeyError(f"expected 'streams.<stream>.<quantity>' or 'units.<unit>.<quantity>', got {address!r}")
+
+
+def _propagate_phases(fs: Flowsheet) -> None:
+    """Fix each stream's phase: feeds and fixed-phase ports first, then a
+    fixed-point pass through the units (recycles converge in a few sweeps)."""
+    known: dict[str, str] = {}
+    for _ in range(len(fs.units) + 2):
+        changed = False
+        for uid, m in fs.units.items():
+            inlet_phases: dict[str, list[str]] = {}
+            for p in m.ports():
+                if p.direction == "in":
+                    names = [s for s, st in fs.streams.items() if st.dest and st.dest[0] == uid and st.dest[1] == p.name]
+                    names.sort(key=lambda s: fs.streams[s].dest[2])
+                    inlet_phases[p.name] = [known.get(n, "liquid") for n in names]
+            outs = m.outlet_phases(inlet_phases)
+            for s, st in fs.streams.items():
+                if st.source and st.source[0] == uid:
+                    ph = outs.get(st.source[1], "liquid")
+                    if known.get(s) != ph:
+                        known[s] = ph
+                        changed = True
+        if not changed:
+            break
+    for s, st in fs.streams.items():
+        st.phase = known.get(s, "liquid")
+
+
+def input_rows(fs: Flowsheet) -> list[dict]:
+    """Every addressable input: ``path``, ``value`` and ``unit`` as in the file, ``kind``."""
+    return [{"path": iv.path, "value": iv.display(), "unit": iv.unit, "kind": iv.category,
+             "quantity": iv.kind.name} for iv in fs.inputs.values()]
