@@ -23,3 +23,9 @@ def esterification() -> ComponentSystem:
 def butanes() -> ComponentSystem:
     """n-butane -> isobutane, a first-order isomerisation."""
     return ComponentSystem(["n-butane", "isobutane"])
+
+
+@lru_cache(maxsize=None)
+def benzene_toluene() -> ComponentSystem:
+    """The textbook ideal binary for vapour-liquid equilibrium."""
+    return ComponentSystem(["benzene", "toluene"])

@@ -11,7 +11,9 @@ in casadi:
 * vapour pressure, the Antoine equation in SI,
   ``log10(Psat/Pa) = A - B / (T/K + C)``;
 * enthalpy of vaporisation at 298.15 K (J/mol), the anchor of the liquid
-  enthalpy (see :mod:`unitmodels.thermo.system`);
+  enthalpy (see :mod:`unitmodels.thermo.system`); from the difference of
+  the gas and liquid heats of formation where both are tabulated, else
+  from Perry's Table 2-150 correlation;
 * liquid molar volume, either a constant or the Rackett form
   ``V(T) = V_ref * Zra ** ((1 - T/Tc)**(2/7) - (1 - T_ref/Tc)**(2/7))``.
 
@@ -110,7 +112,7 @@ class Component:
         from chemicals import critical, identifiers
         from chemicals.heat_capacity import Cp_data_Poling
         from chemicals.phase_change import phase_change_data_Perrys2_150
-        from chemicals.reaction import Hfg
+        from chemicals.reaction import Hfg, Hfl
         from chemicals.vapor_pressure import Psat_data_AntoinePoling
 
         label = name or name_or_cas
@@ -143,6 +145,13 @@ class Component:
             tr = T_REF / float(h["Tc"])
             hvap = float(h["C1"]) * (1 - tr) ** (float(h["C2"]) + float(h["C3"]) * tr + float(h["C4"]) * tr**2)
             sources["hvap_298"] = "Perry's Table 2-150 correlation at 298.15 K (chemicals)"
+            hfl = Hfl(cas)
+            if hfl is not None:
+                # Hf(gas) - Hf(liquid) makes the liquid heat of formation exact, which is what
+                # liquid-phase heats of reaction need; it also avoids the apparent (dimer-affected)
+                # Hvap of carboxylic acids in vaporisation tables.
+                hvap = float(hf) - float(hfl)
+                sources["hvap_298"] = "Hf(ideal gas) - Hf(liquid) at 298.15 K (chemicals)"
             cpl_298 = float(row["Cpl"])
             sources["cp_liquid"] = "Poling liquid Cp at 298.15 K, held constant"
             if math.isnan(cpl_298):
