@@ -14,13 +14,15 @@ in casadi:
   enthalpy (see :mod:`unitmodels.thermo.system`); from the difference of
   the gas and liquid heats of formation where both are tabulated, else
   from Perry's Table 2-150 correlation;
-* liquid molar volume, either a constant or the Rackett form
-  ``V(T) = V_ref * Zra ** ((1 - T/Tc)**(2/7) - (1 - T_ref/Tc)**(2/7))``.
+* liquid molar volume, either a constant or the Rackett / DIPPR-105 form
+  ``V(T) = V_ref * B ** ((1 - T/Tc)**D - (1 - T_ref/Tc)**D)`` (Rackett:
+  ``B = Zc``, ``D = 2/7``; Perry's Table 2-32 (DIPPR 105) coefficients
+  where tabulated).
 
 ``Component.from_name`` fills these from the ``chemicals`` package's
 tables (Poling Cp polynomials, Poling Antoine constants, Perry's Table
-2-150 Hvap correlation, critical constants for Rackett, ideal-gas heats
-of formation). ``Component.from_data`` builds a user-defined
+2-150 Hvap correlation, Perry's DIPPR-105 liquid densities, VDI/PPDS
+densities or the Rackett equation, ideal-gas heats of formation). ``Component.from_data`` builds a user-defined
 pseudo-component from a handful of numbers.
 """
 
@@ -64,9 +66,9 @@ class Component:
         taken equal to the ideal-gas enthalpy).
     v_liquid_ref : float
         Liquid molar volume at ``T_REF``, m**3/mol.
-    rackett_tc, rackett_z : float or None
-        Critical temperature (K) and Rackett compressibility for the
-        temperature dependence of the liquid volume; None keeps it constant.
+    rackett_tc, rackett_z, rackett_exponent : float or None
+        ``Tc`` (K), base ``B`` and exponent ``D`` of the temperature
+        dependence of the liquid volume; None keeps it constant.
     cp_gas_range, antoine_range : tuple of float
         Validity ranges (K) of the correlations as published (information
         only; the expressions extrapolate smoothly).
@@ -86,6 +88,7 @@ class Component:
     v_liquid_ref: float
     rackett_tc: float | None = None
     rackett_z: float | None = None
+    rackett_exponent: float = 2.0 / 7.0
     cp_gas_range: tuple[float, float] = (0.0, math.inf)
     antoine_range: tuple[float, float] = (0.0, math.inf)
     condensable: bool = True
@@ -127,17 +130,33 @@ class Component:
         row = Cp_data_Poling.loc[cas]
         cp_gas = tuple(R * float(row[f"a{k}"]) for k in range(5))
         sources["cp_gas"] = "Poling-Prausnitz-O'Connell polynomial (chemicals Cp_data_Poling)"
-        if cas not in Psat_data_AntoinePoling.index:
-            raise UnitConfigError("components", f"{label}: no Antoine constants (Poling) in chemicals; define it with Component.from_data")
-        arow = Psat_data_AntoinePoling.loc[cas]
-        antoine = (float(arow["A"]), float(arow["B"]), float(arow["C"]))
+        if cas in Psat_data_AntoinePoling.index:
+            arow = Psat_data_AntoinePoling.loc[cas]
+            antoine = (float(arow["A"]), float(arow["B"]), float(arow["C"]))
+            antoine_range = (float(arow["Tmin"]), float(arow["Tmax"]))
+            sources["psat"] = "Poling Antoine constants (chemicals Psat_data_AntoinePoling)"
+        else:
+            # Corresponding-states line through the critical point and the
+            # acentric-factor point log10(Psat/Pc) = -1 - omega at T = 0.7 Tc:
+            # log10(P/Pc) = (7/3)(1 + omega)(1 - Tc/T).
+            from chemicals.acentric import omega as omega_of
+
+            tc0, pc0, w0 = critical.Tc(cas), critical.Pc(cas), omega_of(cas)
+            if tc0 is None or pc0 is None or w0 is None:
+                raise UnitConfigError("components", f"{label}: no Antoine constants (Poling) and no Tc, Pc, omega; use Component.from_data")
+            bb = 7.0 / 3.0 * (1 + w0) * tc0
+            antoine = (math.log10(pc0) + bb / tc0, bb, 0.0)
+            antoine_range = (0.7 * tc0, tc0)
+            sources["psat"] = "estimate log10(P/Pc) = 7/3 (1 + omega)(1 - Tc/T) (no Antoine data)"
         hf = Hfg(cas)
         if hf is None:
             raise UnitConfigError("components", f"{label}: no ideal-gas heat of formation in chemicals")
         tc = critical.Tc(cas)
         pc = critical.Pc(cas)
         zc = critical.Zc(cas)
-        condensable = tc is not None and tc > T_REF
+        # Species whose Tc is within ~30 K of 298.15 K (CO2, ethane) have no usable
+        # liquid reference at 298.15 K; they are treated like permanent gases.
+        condensable = tc is not None and tc > T_REF + 30.0
         if condensable:
             if cas not in phase_change_data_Perrys2_150.index:
                 raise UnitConfigError("components", f"{label}: no enthalpy of vaporisation correlation (Perry's 2-150) in chemicals")
@@ -171,10 +190,7 @@ class Component:
             sources["hvap_298"] = "supercritical at 298.15 K: dissolved liquid enthalpy = ideal gas"
         if tc is None or pc is None or zc is None:
             raise UnitConfigError("components", f"{label}: no critical constants for the liquid volume")
-        from chemicals.volume import Rackett
-
-        v_ref = Rackett(T_REF, tc, pc, zc) if condensable else R * tc / pc * zc
-        sources["v_liquid"] = "Rackett equation with Tc, Pc, Zc (chemicals)"
+        v_ref, v_tc, v_b, v_d = _liquid_volume_data(cas, tc, pc, zc, condensable, sources)
         return cls(
             name=label,
             cas=cas,
@@ -186,10 +202,11 @@ class Component:
             antoine=antoine,
             hvap_298=hvap,
             v_liquid_ref=v_ref,
-            rackett_tc=tc if condensable else None,
-            rackett_z=zc if condensable else None,
+            rackett_tc=v_tc,
+            rackett_z=v_b,
+            rackett_exponent=v_d,
             cp_gas_range=(float(row["Tmin"]), float(row["Tmax"])),
-            antoine_range=(float(arow["Tmin"]), float(arow["Tmax"])),
+            antoine_range=antoine_range,
             condensable=condensable,
             gibbs_formation=_gibbs_formation(cas, meta.formula, float(hf)),
             sources=sources,
@@ -271,3 +288,29 @@ def _gibbs_formation(cas: str, formula: str | None, hf: float) -> float | None:
     reactor); give it with :meth:`Component.from_data` meanwhile.
     """
     return None
+
+
+def _liquid_volume_data(cas: str, tc: float, pc: float, zc: float, condensable: bool, sources: dict) -> tuple:
+    """(V_ref m**3/mol at 298.15 K, Tc, B, D) of the liquid-volume form."""
+    from chemicals import volume
+
+    volume._load_rho_data()
+    if not condensable:
+        # a permanent gas "dissolved" in a liquid: a constant volume of the
+        # order of its critical volume keeps concentrations finite
+        sources["v_liquid"] = "R Tc Zc / Pc (constant; permanent gas)"
+        return R * tc / pc * zc, None, None, 2.0 / 7.0
+    d105 = volume.rho_data_Perry_8E_105_l
+    if cas in d105.index:
+        r = d105.loc[cas]
+        a, b, c, d = (float(r[k]) for k in ("C1", "C2", "C3", "C4"))
+        sources["v_liquid"] = "Perry's DIPPR-105 liquid density coefficients (chemicals)"
+        return b ** (1 + (1 - T_REF / c) ** d) / a, c, b, d
+    vdi = volume.rho_data_VDI_PPDS_2
+    if cas in vdi.index:
+        r = vdi.loc[cas]
+        v = volume.volume_VDI_PPDS(T_REF, r.Tc, r.rhoc, r.A, r.B, r.C, r.D, r.MW)
+        sources["v_liquid"] = "VDI/PPDS density at 298.15 K with the Rackett temperature shape (chemicals)"
+        return float(v), tc, zc, 2.0 / 7.0
+    sources["v_liquid"] = "Rackett equation with Tc, Pc, Zc (chemicals)"
+    return float(volume.Rackett(T_REF, tc, pc, zc)), tc, zc, 2.0 / 7.0

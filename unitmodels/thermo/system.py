@@ -178,7 +178,7 @@ class ComponentSystem:
         return ca.vertcat(*[ca.exp(ln10 * (a - b / (T + cc))) for (a, b, cc) in (c.antoine for c in self.components)])
 
     def liquid_molar_volume(self, T: Any) -> Any:
-        """Liquid molar volumes, m**3/mol, shape (n, 1) (Rackett or constant)."""
+        """Liquid molar volumes, m**3/mol, shape (n, 1) (Rackett / DIPPR-105 form or constant)."""
         out = []
         for c in self.components:
             if c.rackett_tc is None or c.rackett_z is None:
@@ -186,7 +186,8 @@ class ComponentSystem:
             else:
                 tau = _smooth_pos(1 - T / c.rackett_tc)
                 tau0 = _smooth_pos(1 - T_REF / c.rackett_tc)
-                out.append(c.v_liquid_ref * ca.exp(np.log(c.rackett_z) * (tau ** (2.0 / 7.0) - tau0 ** (2.0 / 7.0))))
+                d = c.rackett_exponent
+                out.append(c.v_liquid_ref * ca.exp(np.log(c.rackett_z) * (tau**d - tau0**d)))
         return ca.vertcat(*out)
 
     def mass_flow(self, F: Any) -> Any:

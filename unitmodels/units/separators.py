@@ -15,14 +15,13 @@ class Flash(UnitModel):
 
     ``K_i = Psat_i(T) / P``. Unknowns: vapour and liquid streams
     (2n + 4), duty ``Q`` (W) and the vapour fraction ``beta`` (vapour
-    moles / feed moles). Residuals (2n + 4), all polynomial in the
-    unknowns (no divisions, so a vanishing phase does not make them blow up):
+    moles / feed moles). Residuals (2n + 4):
 
     * ``V_i + L_i - F_i = 0`` (n),
     * ``(1 - beta) V_i - beta K_i L_i = 0`` (n): ``y_i = K_i x_i`` once
       ``sum V = beta sum F`` holds,
-    * ``sum V - beta sum F = 0`` (together these are the Rachford-Rice
-      equation),
+    * the Rachford-Rice equation ``sum (K_i - 1) F_i / (1 + beta (K_i - 1)) = 0``
+      (it has no trivial root at ``beta = 0``),
     * ``T_V = T_L``, ``P_V = P_L``,
     * ``H_in + Q - H_V - H_L = 0``.
 
@@ -65,7 +64,10 @@ class Flash(UnitModel):
         K = self.k_values(s)
         res = [v.F[i] + liq.F[i] - f.F[i] for i in range(sys.n)]
         res += [(1 - beta) * v.F[i] - beta * K[i] * liq.F[i] for i in range(sys.n)]
-        res.append(ca.sum1(v.F) - beta * ca.sum1(f.F))
+        # Rachford-Rice, sum_i (K_i - 1) z_i / (1 + beta (K_i - 1)) = 0 (times the
+        # feed total). Unlike "sum V = beta sum F" it has no trivial root at
+        # beta = 0, V = 0, which would satisfy the other equations for any feed.
+        res.append(sum((K[i] - 1) * f.F[i] / (1 + beta * (K[i] - 1)) for i in range(sys.n)))
         res += [v.T - liq.T, v.P - liq.P]
         res.append(sys.enthalpy_flow(f.F, f.T, f.phase) + s.x["Q"] - sys.enthalpy_flow(v.F, v.T, "vapour") - sys.enthalpy_flow(liq.F, liq.T, "liquid"))
         return res
