@@ -32,7 +32,7 @@ from plantopt.solver.filter import Filter, acceptable_to_current, update_radius
 from plantopt.solver.inertia import regularise
 from plantopt.solver.nlp import CompiledNLP
 from plantopt.solver.options import (
-    FILTER_KAPPA, FILTER_SIGMA, RADIUS_INIT, RADIUS_MIN,
+    FILTER_KAPPA, FILTER_SIGMA, H_MAX_FACTOR, RADIUS_INIT, RADIUS_MIN,
 )
 from plantopt.solver.problem import ScaledProblem
 from plantopt.solver.qp import QPResult, solve_qp
@@ -115,9 +115,21 @@ def sqp_solve(
                                            np.asarray(warm_start["lam_x"], float))
         if warm_start.get("radius"):
             radius = float(warm_start["radius"])
+    if not (warm_start and warm_start.get("lam_g") is not None) and m:
+        # Least-squares multipliers on the equality rows (as IPOPT's
+        # initialisation): with zeros the first Hessian lacks all constraint
+        # curvature and the first QP is an LP-like step to the box corner.
+        eqa = np.where(np.isfinite(prob.cl) & (prob.cl == prob.cu), -1, 0)
+        y, _ = kktmod.ls_multipliers(grad, J, c, prob.cl, prob.cu, z, prob.zl, prob.zu,
+                                     eqa, np.zeros(n, dtype=int), max_rounds=1)
+        if not np.isfinite(y).all() or np.max(np.abs(y), initial=0.0) > 1e3:
+            y = np.zeros(m)  # estimate unreliable (IPOPT uses the same 1e3 cap)
     st = _State(z, F, c, grad, J, y, yx)
     h = prob.violation(c)
-    filt = Filter(h_max=1e4 * max(1.0, h))
+    # Upper bound on admissible violation, as the filter entry (u, -inf) of
+    # FL2002 sec. 3; a multiple of the initial violation.
+    filt = Filter(h_max=H_MAX_FACTOR * max(1.0, h))
+    rest = {"radius": None}
     eq_rows = np.flatnonzero(np.isfinite(prob.cl) & (prob.cl == prob.cu))
     delta_last = 0.0
     it = 0
@@ -127,14 +139,15 @@ def sqp_solve(
     if verbose:
         _log_header()
 
-    def record(kind: str, ratio: float, opt: float, accepted: bool) -> None:
-        rec = {"iter": it, "f": st.F / sc.sf, "violation": prob.violation_inf(st.c),
-               "optimality": opt, "radius": radius, "ratio": ratio, "kind": kind,
+    def record(kind: str, ratio: float, opt: float, accepted: bool, k: int | None = None,
+               rad: float | None = None) -> None:
+        rec = {"iter": it if k is None else k, "f": st.F / sc.sf, "violation": prob.violation_inf(st.c),
+               "optimality": opt, "radius": radius if rad is None else rad, "ratio": ratio, "kind": kind,
                "accepted": accepted}
         history.append(rec)
         if verbose:
-            print(f"{it:4d} {rec['f']:14.7e} {rec['violation']:10.3e} {opt:10.3e} "
-                  f"{radius:9.2e} {ratio:9.2e}  {kind}{'' if accepted else ' (rejected)'}")
+            print(f"{rec['iter']:4d} {rec['f']:14.7e} {rec['violation']:10.3e} {opt:10.3e} "
+                  f"{rec['radius']:9.2e} {ratio:9.2e}  {kind}{'' if accepted else ' (rejected)'}")
 
     def lin_bounds(zc: np.ndarray, r: float) -> tuple[np.ndarray, np.ndarray]:
         return np.maximum(prob.zl - zc, -r), np.minimum(prob.zu - zc, r)
@@ -154,7 +167,17 @@ def sqp_solve(
         if H is None:
             status, message = Status.FAILED, "Hessian not finite"
             break
-        delta = regularise(H, st.J[eq_rows], delta_last)
+        # Curvature is needed only on the null space of the constraints
+        # expected active: equalities plus the previous QP's active rows and
+        # bounds (second-order sufficiency); convexifying on the whole space
+        # would shorten steps needlessly when inequalities are active.
+        rows = eq_rows if st.act_r is None else np.union1d(eq_rows, np.flatnonzero(st.act_r))
+        A_act = st.J[rows]
+        if st.act_b is not None and st.act_b.any():
+            bnd = np.flatnonzero(st.act_b)
+            A_act = sp.vstack([A_act, sp.csr_matrix((np.ones(bnd.size), (np.arange(bnd.size), bnd)),
+                                                    shape=(bnd.size, n))], format="csc")
+        delta = regularise(H, A_act, delta_last)
         delta_last = delta
         Hr = (H + delta * sp.identity(n)).tocsc()
         lb, ub = lin_bounds(st.z, radius)
@@ -165,7 +188,7 @@ def sqp_solve(
             Hr = (H + delta2 * sp.identity(n)).tocsc()
             qp = solve_qp(Hr, st.grad, st.J, prob.cl - st.c, prob.cu - st.c, lb, ub)
         if qp.status != "solved":
-            out = _restore(prob, st, filt, radius, tol, max_iter, max_time, t0, it, record)
+            out = _restore(prob, st, filt, radius, tol, max_iter, max_time, t0, it, record, rest)
             st, radius, it, rstat, rmsg = out
             h = prob.violation(st.c)
             if rstat is not None:
@@ -252,13 +275,15 @@ def sqp_solve(
                    message, it, history, t0, radius, tol)
 
 
-def _restore(prob, st, filt, radius, tol, max_iter, max_time, t0, it, record):
+def _restore(prob, st, filt, radius, tol, max_iter, max_time, t0, it, record, rest):
     """Feasibility restoration; returns ``(state, radius, it, status or None, message)``."""
     n, m = prob.cnlp.nx, prob.cnlp.ng
     h = prob.violation(st.c)
     filt.add(h, st.F)
     yr = np.clip(st.y, -1.0, 1.0)
-    rad = max(radius, 1e-2)
+    # the restoration radius persists between restoration phases: a radius
+    # that the violation model earned is reused instead of re-learnt
+    rad = rest["radius"] if rest["radius"] is not None else max(radius, 1e-2)
     delta_last = 0.0
     while True:
         if it >= max_iter:
@@ -268,7 +293,8 @@ def _restore(prob, st, filt, radius, tol, max_iter, max_time, t0, it, record):
         if rad < RADIUS_MIN:
             return st, rad, it, Status.FAILED, "trust region collapsed in restoration"
         if prob.violation_inf(st.c) <= tol:
-            return st, rad, it, None, ""
+            rest["radius"] = rad
+            return st, max(rad, RADIUS_INIT), it, None, ""
         it += 1
         Hc = prob.hessian(st.z, 0.0, yr)
         if Hc is None:
@@ -282,7 +308,7 @@ def _restore(prob, st, filt, radius, tol, max_iter, max_time, t0, it, record):
             return st, rad, it, Status.FAILED, "elastic QP failed in restoration"
         dn = float(np.max(np.abs(es.d), initial=0.0))
         if es.pred <= tol * max(1.0, h):
-            record("restoration", np.nan, np.nan, False)
+            record("restoration", np.nan, np.nan, False, it, rad)
             return st, rad, it, Status.INFEASIBLE, (
                 f"locally infeasible: no predicted decrease of the l1 violation {h:.3e}")
         zt = np.clip(st.z + es.d, prob.zl, prob.zu)
@@ -300,9 +326,13 @@ def _restore(prob, st, filt, radius, tol, max_iter, max_time, t0, it, record):
             st = _State(zt, Ft, ct, derivs[0], derivs[1], np.zeros(m), np.zeros(n))
             yr = es.y
             h = ht
-        record("restoration", float(ratio), np.nan, accepted)
+        record("restoration", float(ratio), np.nan, accepted, it, rad)
         if accepted and filt.acceptable(h, st.F):
-            return st, rad, it, None, ""
+            # Each regular iteration starts from at least the initial radius
+            # (FLT2002 use a fixed lower bound on the starting radius), so a
+            # small restoration radius does not make the next QP inconsistent.
+            rest["radius"] = rad
+            return st, max(rad, RADIUS_INIT), it, None, ""
 
 
 def _result(cnlp, prob, x, p, lbx, ubx, lbg, ubg, lam_g, lam_x, status, message, it,
