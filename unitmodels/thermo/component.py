@@ -7,7 +7,8 @@ in casadi:
 * ideal-gas heat capacity, a polynomial in T:
   ``Cp_ig(T) = sum_k c_k T**k`` in J/mol/K (the Poling-Prausnitz-O'Connell
   form ``Cp/R = a0 + a1 T + ... + a4 T**4`` scaled by R);
-* liquid heat capacity, a polynomial of the same form (often a constant);
+* liquid heat capacity, a polynomial of the same form (Perry's Table
+  2-153 where tabulated, else Poling's 298.15 K value held constant);
 * vapour pressure, the Antoine equation in SI,
   ``log10(Psat/Pa) = A - B / (T/K + C)``;
 * enthalpy of vaporisation at 298.15 K (J/mol), the anchor of the liquid
@@ -33,7 +34,7 @@ from dataclasses import dataclass, field
 
 from unitmodels.base import UnitConfigError
 
-R = 8.314462618  # J/mol/K, CODATA 2018 (exact by the 2019 SI definition)
+R = 8.31446261815324  # J/mol/K, N_A k, exact since the 2019 SI redefinition
 T_REF = 298.15  # K, reference temperature of heats of formation
 P_REF = 101325.0  # Pa
 
@@ -171,9 +172,18 @@ class Component:
                 # Hvap of carboxylic acids in vaporisation tables.
                 hvap = float(hf) - float(hfl)
                 sources["hvap_298"] = "Hf(ideal gas) - Hf(liquid) at 298.15 K (chemicals)"
+            from chemicals import heat_capacity as _hc
+
+            _hc._load_Cp_data()
+            perry = _hc.Cp_data_Perry_Table_153_100
             cpl_298 = float(row["Cpl"])
             sources["cp_liquid"] = "Poling liquid Cp at 298.15 K, held constant"
-            if math.isnan(cpl_298):
+            if cas in perry.index:
+                # Perry's Table 2-153 polynomial (J/kmol/K) in T
+                pr = perry.loc[cas]
+                cp_liquid_poly = tuple(float(pr[k]) / 1000.0 for k in ("A", "B", "C", "D", "E"))
+                sources["cp_liquid"] = "Perry's Table 2-153 polynomial (chemicals Cp_data_Perry_Table_153_100)"
+            elif math.isnan(cpl_298):
                 # corresponding-states estimate (Rowlinson-Bondi as given by Poling et al.)
                 from chemicals.acentric import omega as omega_of
                 from chemicals.heat_capacity import Rowlinson_Poling
@@ -183,7 +193,7 @@ class Component:
                     raise UnitConfigError("components", f"{label}: no liquid Cp (Poling) and no Tc/omega to estimate it")
                 cpl_298 = float(Rowlinson_Poling(T_REF, tc, w, sum(c * T_REF**k for k, c in enumerate(cp_gas))))
                 sources["cp_liquid"] = "Rowlinson-Poling estimate at 298.15 K, held constant"
-            cp_liquid: tuple[float, ...] = (cpl_298,)
+            cp_liquid: tuple[float, ...] = cp_liquid_poly if cas in perry.index else (cpl_298,)
         else:
             hvap = 0.0
             cp_liquid = cp_gas

@@ -28,11 +28,13 @@ class Flash(UnitModel):
     Specifications: ``temperature``, and ``pressure`` or ``pressure_drop``
     (group "pressure").
 
-    Single-phase feeds: ``beta`` is not bounded here, so for a feed below
-    its bubble point (or above its dew point) the equations have the
-    "negative flash" solution with ``beta < 0`` (``> 1``) and negative
-    flows in one outlet; the flowsheet's bounds ``F >= 0`` then make that
-    operating point infeasible instead of silently wrong.
+    Single-phase feeds: ``beta`` is bounded to [0, 1]. For a feed below its
+    bubble point (or above its dew point) the Rachford-Rice root lies
+    outside that range (the "negative flash"), so the equations cannot be
+    met within the bounds and the solve reports failure (or, when
+    optimizing, the point is infeasible) instead of a silently wrong
+    degenerate two-phase answer. Unbounded, Newton steps also wander into
+    negative flows and stall against the ``F >= 0`` bounds.
     """
 
     kind = "flash"
@@ -43,7 +45,7 @@ class Flash(UnitModel):
         return [Port("inlet", "in"), Port("vapour", "out", phase="vapour"), Port("liquid", "out", phase="liquid")]
 
     def variables(self) -> list[Var]:
-        return [Var("Q", "W", nominal=1.0e5, doc="heat added"), Var("beta", "", -INF, INF, 0.5, "vapour fraction (unbounded: see notes)")]
+        return [Var("Q", "W", nominal=1.0e5, doc="heat added"), Var("beta", "", 0.0, 1.0, 0.5, "vapour fraction (two-phase only: see notes)")]
 
     def specs(self) -> list[Spec]:
         return [
