@@ -19,7 +19,7 @@ import numpy as np
 import qdldl
 import scipy.sparse as sp
 
-from plantopt.solver.options import DELTA_FIRST, DELTA_GROW, DELTA_MAX, EPS_QD
+from plantopt.solver.options import DELTA_FIRST, DELTA_GROW, DELTA_MAX, DELTA_TINY, EPS_QD
 
 
 def kkt_matrix(H: sp.spmatrix, A: sp.spmatrix, delta: float, eps: float = EPS_QD) -> sp.csc_matrix:
@@ -82,8 +82,13 @@ def regularise(H: sp.spmatrix, A: sp.spmatrix, delta_last: float = 0.0) -> float
     want = (n, m, 0)
     if inertia(kkt_matrix(H, A, 0.0)) == want:
         return 0.0
-    delta = max(DELTA_FIRST, delta_last / 3.0)
     scale = max(1.0, float(abs(H).max()) if H.nnz else 1.0)
+    # qdldl does not pivot: a singular PSD Hessian (zero diagonal entries)
+    # can give a zero pivot although the curvature on the null space is
+    # fine. A tiny shift separates that case from true negative curvature.
+    if delta_last == 0.0 and inertia(kkt_matrix(H, A, DELTA_TINY * scale)) == want:
+        return DELTA_TINY * scale
+    delta = max(DELTA_FIRST, delta_last / 3.0)
     delta = max(delta, 1e-8 * scale)
     while delta < DELTA_MAX:
         if inertia(kkt_matrix(H, A, delta)) == want:

@@ -74,6 +74,8 @@ SCALE_MIN = 1e-8
 
 # --- inertia correction (cf. Waechter & Biegler 2006, sec. 3.1) -----------
 DELTA_FIRST = 1e-4
+#: shift (relative to max |H_ij|) that only resolves zero pivots of a singular PSD H
+DELTA_TINY = 1e-10
 DELTA_GROW = 8.0
 DELTA_MAX = 1e20
 #: quasi-definite lower-right block -EPS_QD I of the KKT matrix

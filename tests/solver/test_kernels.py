@@ -1,0 +1,178 @@
+"""Kernels of the SQP method tested on their own."""
+
+import casadi as ca
+import numpy as np
+import pytest
+import scipy.linalg as sla
+import scipy.sparse as sp
+
+from plantopt.solver import kkt as kktmod
+from plantopt.solver.filter import Filter, acceptable_to_current, update_radius
+from plantopt.solver.inertia import inertia, kkt_matrix, regularise
+from plantopt.solver.options import FILTER_BETA, FILTER_GAMMA
+from plantopt.solver.qp import kkt_solve, solve_qp
+from plantopt.solver.restoration import elastic_qp
+
+INF = np.inf
+
+
+# --- filter -----------------------------------------------------------------
+
+def test_filter_envelope_and_domination():
+    flt = Filter(h_max=10.0)
+    flt.add(1.0, 5.0)
+    # inside the envelope: slightly less violation but not by the factor beta
+    assert not flt.acceptable(0.995, 5.0)
+    # enough violation decrease: h <= beta * h_j
+    assert flt.acceptable(FILTER_BETA * 1.0, 100.0)
+    # enough objective decrease: f <= f_j - gamma h
+    assert flt.acceptable(2.0, 5.0 - FILTER_GAMMA * 2.0 - 1e-12)
+    assert not flt.acceptable(2.0, 5.0 - 0.5 * FILTER_GAMMA * 2.0)
+    # above the upper bound h_max never acceptable
+    assert not flt.acceptable(10.0, -1e9)
+    # a dominating entry removes the dominated one
+    flt.add(3.0, 9.0)
+    flt.add(0.5, 4.0)
+    assert flt.entries == [(0.5, 4.0)] or sorted(flt.entries) == [(0.5, 4.0)]
+    flt.add(2.0, 1.0)
+    assert sorted(flt.entries) == [(0.5, 4.0), (2.0, 1.0)]
+
+
+def test_acceptable_to_current_point():
+    assert acceptable_to_current(0.5, 10.0, 1.0, 0.0)
+    assert not acceptable_to_current(1.0, 0.0, 1.0, 0.0)
+    assert acceptable_to_current(1.0, -0.1, 1.0, 0.0)
+
+
+@pytest.mark.parametrize(
+    "ratio, step, boundary, expected",
+    [
+        (0.1, 2.0, True, 0.5),  # rho < 0.25: min(radius, ||d||) / 4
+        (0.1, 8.0, True, 2.0),
+        (-np.inf, 4.0, True, 1.0),  # failed evaluation
+        (np.nan, 4.0, True, 1.0),
+        (0.5, 8.0, True, 8.0),  # 0.25 <= rho <= 0.75 keeps
+        (0.9, 8.0, True, 16.0),  # rho > 0.75 at the boundary doubles
+        (0.9, 3.0, False, 8.0),  # ... but not inside
+    ],
+)
+def test_radius_rule(ratio, step, boundary, expected):
+    assert update_radius(8.0, ratio, step, boundary) == expected
+
+
+# --- inertia ----------------------------------------------------------------
+
+def test_inertia_matches_eigenvalues():
+    rng = np.random.default_rng(0)
+    for _ in range(20):
+        n, m = 6, 2
+        Q = rng.standard_normal((n, n))
+        H = Q @ np.diag(rng.uniform(-1, 2, n)) @ Q.T
+        A = rng.standard_normal((m, n))
+        K = kkt_matrix(sp.csc_matrix(H), sp.csc_matrix(A), 0.0, eps=1e-10)
+        ev = np.linalg.eigvalsh(K.toarray())
+        pos, neg, zero = inertia(K)
+        assert (pos, neg) == (int(np.sum(ev > 0)), int(np.sum(ev < 0))) and zero == 0
+
+
+def test_regularise_gives_null_space_convexity():
+    rng = np.random.default_rng(1)
+    n, m = 8, 3
+    Q = np.linalg.qr(rng.standard_normal((n, n)))[0]  # orthogonal: eigenvalues as given
+    H = Q @ np.diag(np.r_[-3.0, -1.0, rng.uniform(0.5, 2, n - 2)]) @ Q.T
+    A = rng.standard_normal((m, n))
+    delta = regularise(sp.csc_matrix(H), sp.csc_matrix(A))
+    Z = sla.null_space(A)
+    assert np.linalg.eigvalsh(Z.T @ (H + delta * np.eye(n)) @ Z).min() > 0
+    # no correction when already convex (smallest eigenvalue -3 + 10 > 0)
+    Hc = H + 10 * np.eye(n)
+    assert regularise(sp.csc_matrix(Hc), sp.csc_matrix(A)) == 0.0
+
+
+# --- QP ---------------------------------------------------------------------
+
+def _random_qp(seed):
+    rng = np.random.default_rng(seed)
+    n, m = 6, 4
+    Q = rng.standard_normal((n, n))
+    H = Q @ Q.T + 0.1 * np.eye(n)
+    g = rng.standard_normal(n)
+    A = rng.standard_normal((m, n))
+    l = np.array([0.0, -INF, -0.3, -1.0])
+    u = np.array([0.0, 0.2, INF, 1.0])
+    lb, ub = -0.5 * np.ones(n), 0.5 * np.ones(n)
+    return H, g, A, l, u, lb, ub
+
+
+@pytest.mark.parametrize("seed", range(5))
+def test_qp_polish_matches_kkt_solve_and_ipopt(seed):
+    H, g, A, l, u, lb, ub = _random_qp(seed)
+    r = solve_qp(sp.csc_matrix(H), g, sp.csc_matrix(A), l, u, lb, ub)
+    assert r.status == "solved" and r.polished
+    # an exact KKT solve on the identified active set reproduces the step
+    rows, bnds = np.flatnonzero(r.active_rows), np.flatnonzero(r.active_bounds)
+    M = sp.vstack([sp.csr_matrix(A)[rows], sp.eye(len(g), format="csr")[bnds]], format="csc")
+    b = np.r_[np.where(r.active_rows[rows] < 0, l[rows], u[rows]),
+              np.where(r.active_bounds[bnds] < 0, lb[bnds], ub[bnds])]
+    d, lam = kkt_solve(sp.csc_matrix(H), g, M, b)
+    np.testing.assert_allclose(r.d, d, atol=1e-12)
+    # stationarity with casadi signs: H d + g + A'y + yx = 0, to rounding
+    assert np.max(np.abs(H @ r.d + g + A.T @ r.y + r.yx)) < 1e-12
+    # independent reference: IPOPT on the same QP
+    x = ca.SX.sym("d", len(g))
+    sol = ca.nlpsol("q", "ipopt", {"x": x, "f": ca.dot(g, x) + 0.5 * ca.dot(x, ca.mtimes(ca.DM(H), x)),
+                                   "g": ca.mtimes(ca.DM(A), x)},
+                    {"ipopt.print_level": 0, "print_time": False, "ipopt.tol": 1e-12,
+                     "ipopt.sb": "yes"})(x0=0, lbx=lb, ubx=ub, lbg=l, ubg=u)
+    np.testing.assert_allclose(r.d, np.array(sol["x"]).ravel(), atol=1e-7)
+    np.testing.assert_allclose(r.y, np.array(sol["lam_g"]).ravel(), atol=1e-6)
+    np.testing.assert_allclose(r.yx, np.array(sol["lam_x"]).ravel(), atol=1e-6)
+
+
+def test_qp_reports_infeasibility():
+    H = sp.identity(2, format="csc")
+    A = sp.csc_matrix(np.array([[1.0, 1.0], [1.0, 1.0]]))
+    r = solve_qp(H, np.zeros(2), A, np.array([2.0, -INF]), np.array([INF, 1.0]),
+                 -10 * np.ones(2), 10 * np.ones(2))
+    assert r.status == "infeasible"
+
+
+# --- restoration ------------------------------------------------------------
+
+def test_elastic_qp_on_inconsistent_linearisation():
+    # rows d1 >= 1 and d1 <= -1 (c = 0): least l1 violation 2 for any d1 in [-1, 1]
+    H = 1e-8 * sp.identity(2, format="csc")
+    J = sp.csc_matrix(np.array([[1.0, 0.0], [1.0, 0.0]]))
+    c = np.zeros(2)
+    cl, cu = np.array([1.0, -INF]), np.array([INF, -1.0])
+    es = elastic_qp(H, J, c, cl, cu, -5 * np.ones(2), 5 * np.ones(2), h=2.0)
+    assert es.status == "solved"
+    assert abs(es.model_h - 2.0) < 1e-7
+    assert abs(es.pred) < 1e-7  # no decrease possible: stationary for the violation
+    assert -1 - 1e-7 <= es.d[0] <= 1 + 1e-7
+
+
+def test_elastic_qp_trust_region_limits_decrease():
+    # row d1 + d2 = 3 from c = 0 with radius 1: best linearised violation 1
+    H = 1e-8 * sp.identity(2, format="csc")
+    J = sp.csc_matrix(np.array([[1.0, 1.0]]))
+    es = elastic_qp(H, J, np.zeros(1), np.array([3.0]), np.array([3.0]), -np.ones(2), np.ones(2), h=3.0)
+    assert abs(es.model_h - 1.0) < 1e-7
+    np.testing.assert_allclose(es.d, [1.0, 1.0], atol=1e-6)
+    assert abs(es.y[0] - (-1.0)) < 1e-6  # multiplier of a row still violated below is -1
+
+
+# --- KKT measures -----------------------------------------------------------
+
+def test_kkt_measures_sign_convention():
+    # min x s.t. x >= 1 as a row: lam = -1 satisfies 1 + lam = 0 (casadi sign)
+    J = sp.csc_matrix(np.array([[1.0]]))
+    args = (np.array([1.0]), J, np.array([1.0]), np.array([1.0]), np.array([INF]),
+            np.array([1.0]), np.array([-INF]), np.array([INF]))
+    good = kktmod.measures(*args, np.array([-1.0]), np.zeros(1))
+    assert good == {"stationarity": 0.0, "feasibility": 0.0, "complementarity": 0.0}
+    bad = kktmod.measures(*args, np.array([1.0]), np.zeros(1))  # wrong sign: no upper bound
+    assert bad["complementarity"] >= 1.0 and bad["stationarity"] == 2.0
+    y, yx = kktmod.ls_multipliers(args[0], J, args[2], args[3], args[4], args[5], args[6], args[7],
+                                  np.array([-1]), np.array([0]))
+    assert y[0] == pytest.approx(-1.0, abs=1e-14) and yx[0] == 0.0
