@@ -158,13 +158,8 @@ def sequential_initial_point(asm: "Assembly", fs: "Flowsheet", passes: int = 3) 
                 nres = local.ng - len(spec_names)
                 lbg = np.concatenate([np.zeros(nres), [fs.inputs[fs.specs[uid][sp]].si for sp in spec_names]])
                 lo, hi = _local_bounds(asm, uid, model, outl, n)
-                try:
-                    r = solve_equations(local, np.clip(x0v, lo, hi), lo, hi, lbg, lbg, p=pl,
-                                        options={"max_iter": 60, "tol": 1e-9})
-                    sol = np.asarray(r.x, dtype=float)
-                    if not np.all(np.isfinite(sol)):
-                        sol = x0v
-                except Exception:
+                sol = _solve_local(local, np.clip(x0v, lo, hi), lo, hi, lbg, pl)
+                if sol is None:
                     sol = x0v
             else:
                 sol = x0v
@@ -178,6 +173,25 @@ def sequential_initial_point(asm: "Assembly", fs: "Flowsheet", passes: int = 3) 
                 x[vidx[v.name]] = sol[k]
                 k += 1
     return np.clip(x, lbx, ubx)
+
+
+def _solve_local(local, x0, lo, hi, rhs, p):
+    """Solve one unit's equations; Newton first, then IPOPT (through casadi)
+    as a more forgiving fallback for poor guesses. None if both fail."""
+    try:
+        r = solve_equations(local, x0, lo, hi, rhs, rhs, p=p, options={"max_iter": 60, "tol": 1e-9})
+        if r.success:
+            return np.asarray(r.x, dtype=float)
+        from plantopt.solver import solve_nlp
+
+        r2 = solve_nlp(local, x0, lo, hi, rhs, rhs, p=p, options={"solver": "ipopt", "max_iter": 200, "tol": 1e-8})
+        if np.all(np.isfinite(r2.x)) and float(r2.kkt.get("feasibility", np.inf)) < 1e-6 * (1 + float(np.max(np.abs(rhs), initial=0))):
+            return np.asarray(r2.x, dtype=float)
+        if np.all(np.isfinite(r.x)):
+            return np.asarray(r.x, dtype=float)
+    except Exception:  # a start point only: never fail the run here
+        return None
+    return None
 
 
 def _local_bounds(asm, uid, model, outl, n):

@@ -136,7 +136,7 @@ def build_result(
             margins.append(("upper", hi - val_si))
         side, m_si = min(margins, key=lambda t: t[1])
         tol = ACTIVE_TOL * scale
-        active = optimizing and m_si <= tol
+        active = optimizing and abs(m_si) <= tol
         lr = LimitResult(
             name=lim.name, kind=lim.kind, quantity=lim.quantity, value=to_display(val_si, k, unit),
             lower=to_display(lo, k, unit) if lo is not None else None,
