@@ -181,7 +181,8 @@ def solve_qp(
     n, m = H.shape[0], A.shape[0]
     A = sp.csr_matrix(A)
     eq = np.flatnonzero(l == u)
-    ineq = np.flatnonzero(l != u)
+    # free rows (both bounds infinite) carry no constraint; piqp warns on them
+    ineq = np.flatnonzero((l != u) & (np.isfinite(l) | np.isfinite(u)))
     solver = piqp.SparseSolver()
     s = solver.settings
     s.verbose = False
