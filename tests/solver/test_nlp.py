@@ -133,6 +133,8 @@ def test_evaluation_failure_rejects_step():
     r = solve_nlp({"x": x, "f": ca.log(x) ** 2}, [3.0])
     assert r.success and abs(r.x[0] - 1.0) < 1e-8  # analytic minimiser x = 1
     assert np.isfinite(r.f)
+    # the NaN trial was seen and rejected (ratio -inf), not raised
+    assert any(not h["accepted"] and h["ratio"] == -np.inf for h in r.history)
 
 
 def test_badly_scaled_with_nominals_matches_ipopt():
