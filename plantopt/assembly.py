@@ -403,6 +403,26 @@ def assemble(fs: Flowsheet) -> Assembly:
     report_kinds.append("currency_rate")
     report_exprs.append(profit)
 
+    # overall balances of the plant boundary: feeds in, products out, heat and work added
+    mass_in = mass_out = h_in = h_out = heat = work = ca.SX(0)
+    for sname, st in fs.streams.items():
+        sym = streams[sname]
+        if st.source and fs.unit_types[st.source[0]] == "feed":
+            mass_in += ca.dot(mw, sym.F)
+            h_in += system.enthalpy_flow(sym.F, sym.T, sym.phase)
+        if st.dest and fs.unit_types[st.dest[0]] == "product":
+            mass_out += ca.dot(mw, sym.F)
+            h_out += system.enthalpy_flow(sym.F, sym.T, sym.phase)
+    for uid, model in fs.units.items():
+        heat += model.heat_duty(unit_syms[uid])
+        work += model.work(unit_syms[uid])
+    for name, e, kind in (("mass_in", mass_in, "mass_flow"), ("mass_out", mass_out, "mass_flow"),
+                          ("enthalpy_in", h_in, "power"), ("enthalpy_out", h_out, "power"),
+                          ("heat_added", heat, "power"), ("work_added", work, "power")):
+        report_names.append(f"balance.{name}")
+        report_kinds.append(kind)
+        report_exprs.append(e)
+
     x = ca.vertcat(*xs)
     p = ca.vertcat(*[p_sym[q] for q in p_paths]) if p_paths else ca.SX(0, 1)
     g = ca.vertcat(*gs) if gs else ca.SX(0, 1)

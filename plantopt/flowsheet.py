@@ -525,6 +525,7 @@ class _Builder:
                         self.add_input(path, v, prm.kind, prm.category, WHERE_PARAM, prm.lower, prm.upper)
             # specifications
             given: dict[str, str] = {}
+            present: set[str] = set()  # given in the file, valid or not (no follow-on "missing")
             variadic_out = [p for p in model.ports() if p.variadic]
             for sname, sp in spec_decl.items():
                 head, _, idx = sname.partition(".")
@@ -549,20 +550,22 @@ class _Builder:
                             if (f"{base}.{head}.{key}") not in [e.path for e in self.errors]:
                                 self.err(f"{base}.{head}.{key}", f"not an outlet stream of this unit ({', '.join(snames)})")
                     if stream_name in tbl:
+                        present.add(sname)
                         path = f"{base}.{head}.{stream_name}"
                         if self.add_input(path, tbl[stream_name], sp.kind, "specification", WHERE_SPEC, *_spec_range(sp.kind)):
                             given[sname] = path
                 else:
                     if sname in table:
+                        present.add(sname)
                         path = f"{base}.{sname}"
                         if self.add_input(path, table[sname], sp.kind, "feed" if t == "feed" else "specification",
                                           WHERE_SPEC, *_spec_range(sp.kind)):
                             given[sname] = path
             specs[uid] = given
-            problem = model.check_specs(set(given)) if hasattr(model, "check_specs") else None
+            problem = model.check_specs(present) if hasattr(model, "check_specs") else None
             if problem is None and not hasattr(model, "check_specs"):
                 for g, alts in model.spec_groups().items():
-                    n = sum(a in given for a in alts)
+                    n = sum(a in present for a in alts)
                     if n != 1:
                         problem = f"give exactly one of {', '.join(alts)}"
                         break

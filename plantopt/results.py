@@ -112,6 +112,25 @@ class SolverSummary(_Model):
     message: str = ""
 
 
+class Balance(_Model):
+    """Overall balances at the plant boundary (feeds in, products out).
+
+    ``mass_relative`` is |in - out| / in; ``energy_relative`` is
+    |H_in + heat + work - H_out| divided by the largest of those terms.
+    """
+
+    mass_in: float
+    mass_out: float
+    mass_unit: str
+    mass_relative: float
+    enthalpy_in: float
+    enthalpy_out: float
+    heat_added: float
+    work_added: float
+    energy_unit: str
+    energy_relative: float
+
+
 class RunResult(_Model):
     """Result of ``plantopt simulate`` or ``plantopt optimize``."""
 
@@ -129,6 +148,7 @@ class RunResult(_Model):
     streams: list[StreamResult] = Field(default_factory=list)
     units: list[UnitResult] = Field(default_factory=list)
     solver: SolverSummary
+    balance: Optional[Balance] = None
     structure: list[str] = Field(default_factory=list)
     overrides: dict[str, str] = Field(default_factory=dict)
     warm_start: Optional[dict[str, Any]] = None

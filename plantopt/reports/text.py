@@ -70,6 +70,11 @@ def render_run(result: RunResult, *, streams: bool = True) -> str:
         for u in result.units:
             parts = [f"{k} = {_fmt(q.value, 0).strip()} {q.unit}".rstrip() for k, q in u.quantities.items()]
             L.append(f"  {u.name} ({u.type}): " + "; ".join(parts))
+    if result.balance is not None:
+        b = result.balance
+        L.append("")
+        L.append(f"Overall balance: mass in {b.mass_in:,.6g} / out {b.mass_out:,.6g} {b.mass_unit} (closure {b.mass_relative:.1e}); "
+                 f"energy closure {b.energy_relative:.1e}")
     s = result.solver
     L.append("")
     kkt = ", ".join(f"{k} {v:.2e}" for k, v in s.kkt.items() if not k.endswith("_scaled"))

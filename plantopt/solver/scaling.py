@@ -44,9 +44,10 @@ def _positive(name: str, v: object, n: int) -> np.ndarray:
         a = np.full(n, a[0])
     if a.shape != (n,):
         raise SolverError(f"option {name!r} must have shape ({n},), got {np.shape(v)}")
-    if not np.isfinite(a).all() or (a <= 0).any():
-        raise SolverError(f"option {name!r} must be finite and nonzero")
-    return a
+    if not np.isfinite(a).all():
+        raise SolverError(f"option {name!r} must be finite")
+    # a zero "typical magnitude" carries no scale information: use 1 there
+    return np.where(a > 0, a, 1.0)
 
 
 def variable_scale(x_nominal: object, nx: int) -> np.ndarray:

@@ -139,9 +139,11 @@ def sqp_solve(
     if verbose:
         _log_header()
 
+    diag: dict[str, Any] = {"delta": 0.0, "polished": False}
+
     def record(kind: str, ratio: float, opt: float, accepted: bool, k: int | None = None,
                rad: float | None = None) -> None:
-        rec = {"iter": it if k is None else k, "f": st.F / sc.sf, "violation": prob.violation_inf(st.c),
+        rec = {"iter": it if k is None else k, "delta": diag["delta"], "qp_polished": diag["polished"], "f": st.F / sc.sf, "violation": prob.violation_inf(st.c),
                "optimality": opt, "radius": radius if rad is None else rad, "ratio": ratio, "kind": kind,
                "accepted": accepted}
         history.append(rec)
@@ -187,6 +189,7 @@ def sqp_solve(
             delta2 = regularise(H, sp.csc_matrix((0, n)), delta)
             Hr = (H + delta2 * sp.identity(n)).tocsc()
             qp = solve_qp(Hr, st.grad, st.J, prob.cl - st.c, prob.cu - st.c, lb, ub)
+        diag["delta"], diag["polished"] = delta, qp.polished
         if qp.status != "solved":
             out = _restore(prob, st, filt, radius, tol, max_iter, max_time, t0, it, record, rest)
             st, radius, it, rstat, rmsg = out

@@ -13,6 +13,7 @@ from plantopt import units as U
 from plantopt.assembly import Assembly
 from plantopt.flowsheet import Flowsheet
 from plantopt.results import (
+    Balance,
     DecisionResult,
     LimitResult,
     Objective,
@@ -178,6 +179,16 @@ def build_result(
             dr.reduced_cost_unit = f"{fs.profit_unit} per {d.unit or '1'}"
         decisions.append(dr)
 
+    mu, eu = display_unit(fs, "mass_flow"), display_unit(fs, "power")
+    b = {k: rep[f"balance.{k}"] for k in ("mass_in", "mass_out", "enthalpy_in", "enthalpy_out", "heat_added", "work_added")}
+    e_scale = max(abs(b["enthalpy_in"]), abs(b["enthalpy_out"]), abs(b["heat_added"]), abs(b["work_added"]), 1e-30)
+    balance = Balance(
+        mass_in=to_display(b["mass_in"], "mass_flow", mu), mass_out=to_display(b["mass_out"], "mass_flow", mu), mass_unit=mu,
+        mass_relative=abs(b["mass_in"] - b["mass_out"]) / max(abs(b["mass_in"]), 1e-30),
+        enthalpy_in=to_display(b["enthalpy_in"], "power", eu), enthalpy_out=to_display(b["enthalpy_out"], "power", eu),
+        heat_added=to_display(b["heat_added"], "power", eu), work_added=to_display(b["work_added"], "power", eu), energy_unit=eu,
+        energy_relative=abs(b["enthalpy_in"] + b["heat_added"] + b["work_added"] - b["enthalpy_out"]) / e_scale,
+    )
     breakdown = {name: rep[f"profit.{name}"] * pf for name in asm.breakdown_names}
     obj = Objective(value=rep["profit.total"] * pf, unit=fs.profit_unit, breakdown=breakdown)
     kkt = {k: float(v) for k, v in (res.kkt or {}).items() if v is not None and math.isfinite(float(v))}
@@ -192,6 +203,6 @@ def build_result(
     return RunResult(
         command=command, status=status, flowsheet=fs.file, flowsheet_name=fs.name, flowsheet_sha256=fs.sha256,
         tool_version=__version__, data_notice=fs.notice, objective=obj, decisions=decisions, limits=limits,
-        streams=streams, units=units, solver=solver, structure=structure or [], overrides=dict(overrides or {}),
+        streams=streams, units=units, solver=solver, balance=balance, structure=structure or [], overrides=dict(overrides or {}),
         warm_start=ws,
     )
