@@ -149,13 +149,68 @@ def test_flash_benzene_toluene_hand_raoult():
     assert out["duty"] == pytest.approx(h_out - h_in, rel=1e-9)
 
 
-def test_flash_at_hand_bubble_point_has_no_vapour():
+def test_flash_at_hand_bubble_and_dew_points():
     """At the bubble temperature (sum z_i Psat_i(T) = P, solved by hand)
-    the vapour fraction is zero."""
+    the vapour fraction is zero, at the dew temperature
+    (sum z_i / Psat_i(T) = 1/P) it is one, up to the complementarity
+    smoothing: with beta * s_liquid = eps**2 / 2 and, linearising the
+    Rachford-Rice condition at the bubble point, s_liquid = m beta with
+    m = sum z K**2 - 1, so beta = eps / sqrt(2 m); at the dew point
+    1 - beta = eps / sqrt(2 m') with m' = sum z / K**2 - 1."""
+    from unitmodels.units.separators import FLASH_EPS
+
     z, P = [0.4, 0.6], 101325.0
     Tb = brentq(lambda T: z[0] * _antoine(BZ, T) + z[1] * _antoine(TOL, T) - P, 340.0, 390.0, xtol=1e-12)
+    Td = brentq(lambda T: z[0] / _antoine(BZ, T) + z[1] / _antoine(TOL, T) - 1 / P, 340.0, 400.0, xtol=1e-12)
+    zz = np.array(z)
+    K = np.array([_antoine(BZ, Tb), _antoine(TOL, Tb)]) / P
     _, out = _flash(z, 350.0, Tb, P)
-    assert abs(out["vapour_fraction"]) < 1e-8
+    assert out["vapour_fraction"] == pytest.approx(FLASH_EPS / math.sqrt(2 * (zz @ K**2 - 1)), rel=1e-3)
+    K = np.array([_antoine(BZ, Td), _antoine(TOL, Td)]) / P
+    _, out = _flash(z, 350.0, Td, P)
+    assert 1.0 - out["vapour_fraction"] == pytest.approx(FLASH_EPS / math.sqrt(2 * (zz @ K**-2 - 1)), rel=1e-3)
+
+
+@pytest.mark.parametrize("T, phase", [(340.0, "liquid"), (400.0, "vapour")])
+def test_flash_single_phase_feed(T, phase):
+    """Below the bubble point everything leaves as liquid, above the dew
+    point as vapour (Raoult, 1 atm, equimolar benzene-toluene: bubble
+    365.2 K, dew 371.9 K by the hand Antoine calculation), and the
+    duty is the enthalpy change of the whole feed in that phase."""
+    z, P, T_in = [0.5, 0.5], 101325.0, 330.0
+    sol, out = _flash(z, T_in, T, P)
+    V = sol.value(sol.s.port("vapour").F)
+    L = sol.value(sol.s.port("liquid").F)
+    main, other = (L, V) if phase == "liquid" else (V, L)
+    assert main == pytest.approx(z, rel=1e-9)
+    assert np.abs(other).max() < 1e-9
+    h_in = sum(zi * _h_hand(c, T_in, "liquid") for zi, c in zip(z, (BZ, TOL)))
+    h_out = sum(zi * _h_hand(c, T, phase) for zi, c in zip(z, (BZ, TOL)))
+    assert out["duty"] == pytest.approx(h_out - h_in, rel=1e-7)
+
+
+def test_adiabatic_flash_of_hot_pressurised_liquid():
+    """Duty 0: a liquid at 400 K let down to 1 atm flashes; the drum
+    temperature and vapour fraction satisfy the hand Raoult split and the
+    hand energy balance (enthalpy convention rebuilt from chemicals)."""
+    sys = ComponentSystem(["benzene", "toluene"])
+    u = Flash("D", sys)
+    z, T_in, P = np.array([0.5, 0.5]), 400.0, 101325.0
+    case = ConformanceCase(u, {"inlet": [(list(z), T_in, 5e5, "liquid")]}, {"duty": 0.0, "pressure": P},
+                           guess={"vapour": [([0.1, 0.05], 368.0, P)], "liquid": [([0.4, 0.45], 368.0, P)], "beta": 0.15})
+    sol = solve_case(case)
+    T = sol.value(sol.s.port("liquid").T)[0]
+    beta = sol.value(sol.s.x["beta"])[0]
+    pb, pt = _antoine(BZ, T), _antoine(TOL, T)
+    xb = (P - pt) / (pb - pt)
+    yb = xb * pb / P
+    assert beta == pytest.approx((z[0] - xb) / (yb - xb), rel=1e-9)
+    x = np.array([xb, 1 - xb])
+    y = np.array([yb, 1 - yb])
+    h_in = sum(zi * _h_hand(c, T_in, "liquid") for zi, c in zip(z, (BZ, TOL)))
+    h_out = sum(beta * yi * _h_hand(c, T, "vapour") + (1 - beta) * xi * _h_hand(c, T, "liquid") for yi, xi, c in zip(y, x, (BZ, TOL)))
+    assert h_out == pytest.approx(h_in, abs=1e-6 * abs(h_in))
+    assert 0.05 < beta < 0.5 and 365.0 < T < 372.0
 
 
 def test_flash_pressure_drop_spec():
@@ -163,3 +218,5 @@ def test_flash_pressure_drop_spec():
     u = Flash("D", sys)
     assert u.check_specs({"temperature", "pressure_drop"}) is None
     assert "only one" in u.check_specs({"temperature", "pressure", "pressure_drop"})
+    assert "only one" in u.check_specs({"temperature", "duty", "pressure"})
+    assert u.check_specs({"duty", "pressure"}) is None
