@@ -15,6 +15,7 @@ import numpy as np
 
 from plantopt.solver.nlp import CompiledNLP
 from plantopt.solver.result import NLPResult
+from plantopt.solver.scaling import variable_scale
 from plantopt.solver.status import Status
 
 #: IPOPT return_status strings (casadi stats) mapped onto our statuses.
@@ -60,8 +61,8 @@ def ipopt_solve(
 
     t0 = time.perf_counter()
     cnlp.reset_counts()
-    dx = np.ones(cnlp.nx) if opts["x_nominal"] is None else np.abs(np.asarray(opts["x_nominal"], float))
-    sg = np.ones(cnlp.ng) if opts["g_nominal"] is None else 1.0 / np.abs(np.asarray(opts["g_nominal"], float))
+    dx = variable_scale(opts["x_nominal"], cnlp.nx)
+    sg = np.ones(cnlp.ng) if opts["g_nominal"] is None else 1.0 / variable_scale(opts["g_nominal"], cnlp.ng, "g_nominal")
     solver = _solver(cnlp, dx, sg, opts)
     args = dict(x0=x0 / dx, lbx=lbx / dx, ubx=ubx / dx, lbg=lbg * sg, ubg=ubg * sg, p=p)
     if warm_start and warm_start.get("lam_g") is not None:

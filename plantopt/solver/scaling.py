@@ -50,9 +50,9 @@ def _positive(name: str, v: object, n: int) -> np.ndarray:
     return np.where(a > 0, a, 1.0)
 
 
-def variable_scale(x_nominal: object, nx: int) -> np.ndarray:
-    """Variable nominal magnitudes, shape (nx,); ones when not given."""
-    return np.ones(nx) if x_nominal is None else _positive("x_nominal", x_nominal, nx)
+def variable_scale(x_nominal: object, nx: int, name: str = "x_nominal") -> np.ndarray:
+    """Nominal magnitudes, shape (nx,); ones when not given, zeros replaced by 1."""
+    return np.ones(nx) if x_nominal is None else _positive(name, x_nominal, nx)
 
 
 def gradient_rule(row_norms: np.ndarray) -> np.ndarray:

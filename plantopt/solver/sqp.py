@@ -32,7 +32,7 @@ from plantopt.solver.filter import Filter, acceptable_to_current, update_radius
 from plantopt.solver.inertia import regularise
 from plantopt.solver.nlp import CompiledNLP
 from plantopt.solver.options import (
-    FILTER_KAPPA, FILTER_SIGMA, H_MAX_FACTOR, RADIUS_INIT, RADIUS_MIN,
+    DELTA_FIRST, FILTER_KAPPA, FILTER_SIGMA, H_MAX_FACTOR, RADIUS_INIT, RADIUS_MIN,
 )
 from plantopt.solver.problem import ScaledProblem
 from plantopt.solver.qp import QPResult, solve_qp
@@ -52,6 +52,16 @@ class _State:
         self.z, self.F, self.c, self.grad, self.J, self.y, self.yx = z, F, c, grad, J, y, yx
         self.act_r: np.ndarray | None = None
         self.act_b: np.ndarray | None = None
+
+
+def _active_matrix(J: sp.spmatrix, rows: np.ndarray, act_b: np.ndarray | None, n: int) -> sp.csc_matrix:
+    """Rows of ``J`` and identity rows of active bounds, shape (k, n)."""
+    A = sp.csr_matrix(J)[rows.astype(int)]
+    if act_b is not None and act_b.any():
+        bnd = np.flatnonzero(act_b)
+        E = sp.csr_matrix((np.ones(bnd.size), (np.arange(bnd.size), bnd)), shape=(bnd.size, n))
+        A = sp.vstack([A, E])
+    return sp.csc_matrix(A)
 
 
 def _log_header() -> None:
@@ -174,20 +184,25 @@ def sqp_solve(
         # bounds (second-order sufficiency); convexifying on the whole space
         # would shorten steps needlessly when inequalities are active.
         rows = eq_rows if st.act_r is None else np.union1d(eq_rows, np.flatnonzero(st.act_r))
-        A_act = st.J[rows]
-        if st.act_b is not None and st.act_b.any():
-            bnd = np.flatnonzero(st.act_b)
-            A_act = sp.vstack([A_act, sp.csr_matrix((np.ones(bnd.size), (np.arange(bnd.size), bnd)),
-                                                    shape=(bnd.size, n))], format="csc")
-        delta = regularise(H, A_act, delta_last)
+        delta = regularise(H, _active_matrix(st.J, rows, st.act_b, n), delta_last)
         delta_last = delta
         Hr = (H + delta * sp.identity(n)).tocsc()
         lb, ub = lin_bounds(st.z, radius)
         qp = solve_qp(Hr, st.grad, st.J, prob.cl - st.c, prob.cu - st.c, lb, ub)
-        if qp.status == "failed":
-            # QP solver trouble on a merely null-space-convex Hessian: convexify fully
-            delta2 = regularise(H, sp.csc_matrix((0, n)), delta)
-            Hr = (H + delta2 * sp.identity(n)).tocsc()
+        for attempt in range(3):
+            if qp.status != "failed":
+                break
+            # piqp needs a convex QP. The predicted active set was wrong: redo
+            # the inertia test on the active set of the failed QP's last
+            # iterate; as a last resort convexify on the whole space.
+            if attempt < 2:
+                A_try = _active_matrix(st.J, np.union1d(eq_rows, np.flatnonzero(qp.active_rows)),
+                                       qp.active_bounds, n)
+                delta = max(regularise(H, A_try, delta), DELTA_FIRST, 10.0 * delta)
+            else:
+                delta = regularise(H, sp.csc_matrix((0, n)), delta)
+            delta_last = delta
+            Hr = (H + delta * sp.identity(n)).tocsc()
             qp = solve_qp(Hr, st.grad, st.J, prob.cl - st.c, prob.cu - st.c, lb, ub)
         diag["delta"], diag["polished"] = delta, qp.polished
         if qp.status != "solved":
