@@ -141,6 +141,17 @@ class ComponentSystem:
         """Heat capacities of ``phase`` (``"liquid"`` or ``"vapour"``), J/mol/K, shape (n, 1)."""
         return self.cp_liq(T) if _phase(phase) == "liquid" else self.cp_ig(T)
 
+    def cp_ig_over_t_integral(self, T1: Any, T2: Any) -> Any:
+        """``integral_{T1}^{T2} Cp_ig / T dT`` per component, J/mol/K, shape (n, 1):
+        the ideal-gas entropy change at constant pressure."""
+        out = []
+        for c in self.components:
+            e = c.cp_gas[0] * ca.log(T2 / T1)
+            for k in range(1, len(c.cp_gas)):
+                e = e + c.cp_gas[k] * (T2**k - T1**k) / k
+            out.append(e)
+        return ca.vertcat(*out)
+
     def h_ig(self, T: Any) -> Any:
         """Ideal-gas molar enthalpies (elements at 298.15 K = 0), J/mol, shape (n, 1)."""
         return ca.vertcat(*[c.formation_enthalpy + _poly_integral(c.cp_gas, T) for c in self.components])
@@ -222,6 +233,10 @@ class ComponentSystem:
     def enthalpy_flow_num(self, F: Sequence[float], T: float, phase: str) -> float:
         """Numeric :meth:`enthalpy_flow`, W."""
         return float(self._num("enthalpy_flow", np.asarray(F, float), T, phase)[0])
+
+    def cp_ig_over_t_integral_num(self, T1: float, T2: float) -> np.ndarray:
+        """Numeric :meth:`cp_ig_over_t_integral`, J/mol/K, shape (n,)."""
+        return self._num("cp_ig_over_t_integral", T1, T2)
 
     def psat_num(self, T: float) -> np.ndarray:
         """Numeric :meth:`psat`, Pa, shape (n,)."""

@@ -1,3 +1,3 @@
 """The unit model classes; importing this package registers them."""
 
-from unitmodels.units import heat, reactors, separators, streams  # noqa: F401
+from unitmodels.units import heat, pressure, reactors, separators, streams  # noqa: F401
