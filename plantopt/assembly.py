@@ -222,6 +222,8 @@ def assemble(fs: Flowsheet) -> Assembly:
 
     def new_var(path: str, kind: str, lower: float, upper: float, nominal: float) -> Any:
         v = ca.SX.sym(path)
+        # a nominal scale must be a positive magnitude; 0 (unknown) means 1
+        nominal = abs(nominal) if nominal and np.isfinite(nominal) else 1.0
         slots.append(Slot(path, kind, lower, upper, nominal))
         xs.append(v)
         return v
