@@ -17,9 +17,12 @@ from __future__ import annotations
 
 import numpy as np
 import qdldl
+import scipy.linalg as sla
 import scipy.sparse as sp
 
-from plantopt.solver.options import DELTA_FIRST, DELTA_GROW, DELTA_MAX, DELTA_TINY, EPS_QD
+from plantopt.solver.options import (
+    DELTA_FIRST, DELTA_GROW, DELTA_MAX, DELTA_TINY, DENSE_INERTIA_MAX, EPS_QD,
+)
 
 
 def kkt_matrix(H: sp.spmatrix, A: sp.spmatrix, delta: float, eps: float = EPS_QD) -> sp.csc_matrix:
@@ -49,15 +52,25 @@ def inertia(K: sp.spmatrix) -> tuple[int, int, int]:
     N = K.shape[0]
     if N == 0:
         return (0, 0, 0)
+    tiny = 1e-300
     try:
         fac = qdldl.Solver(sp.triu(K, format="csc"), upper=True)
         d = np.asarray(fac.factors()[1]).reshape(-1)
+        if np.isfinite(d).all():
+            return (int(np.sum(d > tiny)), int(np.sum(d < -tiny)), int(np.sum(np.abs(d) <= tiny)))
     except (ValueError, RuntimeError):
-        return (0, 0, N)
-    if not np.isfinite(d).all():
-        return (0, 0, N)
-    tiny = 1e-300
-    return (int(np.sum(d > tiny)), int(np.sum(d < -tiny)), int(np.sum(np.abs(d) <= tiny)))
+        pass
+    # qdldl does not pivot, so it can break down on a matrix that is not
+    # quasi-definite (indefinite H). Small matrices get the Bunch-Kaufman
+    # factorisation (symmetric pivoting) instead; its block-diagonal D has
+    # the inertia of K by Sylvester's law.
+    if N <= DENSE_INERTIA_MAX:
+        _, D, _ = sla.ldl(K.toarray(), lower=True)
+        ev = np.linalg.eigvalsh(D)  # 1x1 and 2x2 blocks only: cheap and exact
+        scale = max(1.0, float(np.max(np.abs(ev), initial=0.0)))
+        z = 1e-14 * scale
+        return (int(np.sum(ev > z)), int(np.sum(ev < -z)), int(np.sum(np.abs(ev) <= z)))
+    return (0, 0, N)
 
 
 def regularise(H: sp.spmatrix, A: sp.spmatrix, delta_last: float = 0.0) -> float:
@@ -86,7 +99,7 @@ def regularise(H: sp.spmatrix, A: sp.spmatrix, delta_last: float = 0.0) -> float
     # qdldl does not pivot: a singular PSD Hessian (zero diagonal entries)
     # can give a zero pivot although the curvature on the null space is
     # fine. A tiny shift separates that case from true negative curvature.
-    if delta_last == 0.0 and inertia(kkt_matrix(H, A, DELTA_TINY * scale)) == want:
+    if inertia(kkt_matrix(H, A, DELTA_TINY * scale)) == want:
         return DELTA_TINY * scale
     delta = max(DELTA_FIRST, delta_last / 3.0)
     delta = max(delta, 1e-8 * scale)

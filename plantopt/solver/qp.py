@@ -25,6 +25,8 @@ import piqp
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
+from plantopt.solver.kkt import ls_multipliers
+
 
 @dataclass
 class QPResult:
@@ -248,6 +250,18 @@ def solve_qp(
             d, y, yx = pol
             polished = True
             ok = True
+    if ok and not polished:
+        # Degenerate vertex (dependent active constraints): the interior-point
+        # multipliers are one point of an unbounded-looking affine set and can
+        # be huge with cancelling signs, which would poison the next
+        # Lagrangian Hessian. Least-squares multipliers on the active set
+        # (minimum norm, sign-cleaned) satisfy the same stationarity.
+        r0 = g + H @ d
+        res_ip = np.max(np.abs(r0 + A.T @ y + yx), initial=0.0)
+        y2, yx2 = ls_multipliers(r0, A, Ad, l, u, d, lb, ub, act_r, act_b)
+        res_ls = np.max(np.abs(r0 + A.T @ y2 + yx2), initial=0.0)
+        if res_ls <= 10.0 * res_ip + 1e-9 * (1.0 + np.max(np.abs(r0), initial=0.0)):
+            y, yx = y2, yx2
     if not ok:
         return QPResult("failed", d, y, yx, np.inf, False, act_r, act_b, info=str(st))
     obj = float(g @ d + 0.5 * d @ (H @ d))

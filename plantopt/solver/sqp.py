@@ -153,7 +153,8 @@ def sqp_solve(
 
     def record(kind: str, ratio: float, opt: float, accepted: bool, k: int | None = None,
                rad: float | None = None) -> None:
-        rec = {"iter": it if k is None else k, "delta": diag["delta"], "qp_polished": diag["polished"], "f": st.F / sc.sf, "violation": prob.violation_inf(st.c),
+        rec = {"iter": it if k is None else k, "delta": diag["delta"], "qp_polished": diag["polished"],
+               "y_max": float(np.max(np.abs(st.y), initial=0.0)), "f": st.F / sc.sf, "violation": prob.violation_inf(st.c),
                "optimality": opt, "radius": radius if rad is None else rad, "ratio": ratio, "kind": kind,
                "accepted": accepted}
         history.append(rec)

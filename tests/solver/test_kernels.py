@@ -176,3 +176,26 @@ def test_kkt_measures_sign_convention():
     y, yx = kktmod.ls_multipliers(args[0], J, args[2], args[3], args[4], args[5], args[6], args[7],
                                   np.array([-1]), np.array([0]))
     assert y[0] == pytest.approx(-1.0, abs=1e-14) and yx[0] == 0.0
+
+
+def test_inertia_when_qdldl_breaks_down():
+    # [[0, 1], [1, 0]] has eigenvalues +-1 but a zero first pivot without pivoting
+    K = sp.csc_matrix(np.array([[0.0, 1.0], [1.0, 0.0]]))
+    assert inertia(K) == (1, 1, 0)
+    # H with zero diagonal (a variable entering only linearly), PD on null(A)
+    H = sp.csc_matrix(np.diag([0.0, 1.0, 1.0]))
+    A = sp.csc_matrix(np.array([[1.0, 0.0, 0.0]]))
+    assert regularise(H, A) == 0.0
+
+
+def test_qp_degenerate_vertex_multipliers_bounded():
+    # min -d1 - d2 with d1 <= 1, d2 <= 1, d1 + d2 <= 2: three active rows for
+    # two variables; multipliers form the segment y = (1 - t, 1 - t, t), t in [0, 1]
+    H = 1e-8 * sp.identity(2, format="csc")
+    A = sp.csc_matrix(np.array([[1.0, 0.0], [0.0, 1.0], [1.0, 1.0]]))
+    r = solve_qp(H, np.array([-1.0, -1.0]), A, -INF * np.ones(3), np.array([1.0, 1.0, 2.0]),
+                 -10 * np.ones(2), 10 * np.ones(2))
+    assert r.status == "solved"
+    np.testing.assert_allclose(r.d, [1.0, 1.0], atol=1e-7)
+    assert np.max(np.abs(np.array([-1.0, -1.0]) + H @ r.d + A.T @ r.y + r.yx)) < 1e-7
+    assert (r.y >= -1e-9).all() and (r.y <= 1 + 1e-7).all()
