@@ -35,7 +35,22 @@ def kkt_matrix(H: sp.spmatrix, A: sp.spmatrix, delta: float, eps: float = EPS_QD
     return K
 
 
-def inertia(K: sp.spmatrix) -> tuple[int, int, int]:
+def _block_eigs(D: np.ndarray) -> np.ndarray:
+    # D of Bunch-Kaufman is block diagonal with 1x1 and 2x2 blocks
+    N = D.shape[0]
+    ev = []
+    i = 0
+    while i < N:
+        if i + 1 < N and D[i + 1, i] != 0.0:
+            ev.extend(np.linalg.eigvalsh(D[i:i + 2, i:i + 2]))
+            i += 2
+        else:
+            ev.append(D[i, i])
+            i += 1
+    return np.asarray(ev)
+
+
+def inertia(K: sp.spmatrix, dense_fallback: bool = True) -> tuple[int, int, int]:
     """Counts of (positive, negative, zero) pivots of ``LDL'`` of a symmetric matrix.
 
     Parameters
@@ -64,9 +79,9 @@ def inertia(K: sp.spmatrix) -> tuple[int, int, int]:
     # quasi-definite (indefinite H). Small matrices get the Bunch-Kaufman
     # factorisation (symmetric pivoting) instead; its block-diagonal D has
     # the inertia of K by Sylvester's law.
-    if N <= DENSE_INERTIA_MAX:
+    if dense_fallback and N <= DENSE_INERTIA_MAX:
         _, D, _ = sla.ldl(K.toarray(), lower=True)
-        ev = np.linalg.eigvalsh(D)  # 1x1 and 2x2 blocks only: cheap and exact
+        ev = _block_eigs(D)
         scale = max(1.0, float(np.max(np.abs(ev), initial=0.0)))
         z = 1e-14 * scale
         return (int(np.sum(ev > z)), int(np.sum(ev < -z)), int(np.sum(np.abs(ev) <= z)))
@@ -93,14 +108,18 @@ def regularise(H: sp.spmatrix, A: sp.spmatrix, delta_last: float = 0.0) -> float
     """
     n, m = H.shape[0], A.shape[0]
     want = (n, m, 0)
-    if inertia(kkt_matrix(H, A, 0.0)) == want:
+    K0 = kkt_matrix(H, A, 0.0)
+    if inertia(K0, dense_fallback=False) == want:
         return 0.0
     scale = max(1.0, float(abs(H).max()) if H.nnz else 1.0)
-    # qdldl does not pivot: a singular PSD Hessian (zero diagonal entries)
-    # can give a zero pivot although the curvature on the null space is
-    # fine. A tiny shift separates that case from true negative curvature.
-    if inertia(kkt_matrix(H, A, DELTA_TINY * scale)) == want:
+    # qdldl does not pivot: zero diagonal entries of H (variables entering
+    # linearly) can give a zero pivot although the curvature on the null
+    # space is fine. A tiny shift separates that case from true negative
+    # curvature; the (slower) pivoted factorisation decides if it does not.
+    if inertia(kkt_matrix(H, A, DELTA_TINY * scale), dense_fallback=False) == want:
         return DELTA_TINY * scale
+    if inertia(K0) == want:
+        return 0.0
     delta = max(DELTA_FIRST, delta_last / 3.0)
     delta = max(delta, 1e-8 * scale)
     while delta < DELTA_MAX:

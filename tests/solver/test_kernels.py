@@ -185,7 +185,11 @@ def test_inertia_when_qdldl_breaks_down():
     # H with zero diagonal (a variable entering only linearly), PD on null(A)
     H = sp.csc_matrix(np.diag([0.0, 1.0, 1.0]))
     A = sp.csc_matrix(np.array([[1.0, 0.0, 0.0]]))
-    assert regularise(H, A) == 0.0
+    # at most the zero-pivot shift DELTA_TINY * max|H| = 1e-10, no real correction
+    assert regularise(H, A) <= 1e-10
+    # truly negative curvature on null(A) still gets a real correction
+    Hn = sp.csc_matrix(np.diag([0.0, -1.0, 1.0]))
+    assert regularise(Hn, A) > 1.0
 
 
 def test_qp_degenerate_vertex_multipliers_bounded():
