@@ -160,6 +160,16 @@ class Assembly:
                 lbg[i], ubg[i] = -math.inf, math.inf
         return lbg, ubg
 
+    def row_scales(self, x: np.ndarray, fs: Flowsheet | None = None) -> np.ndarray:
+        """Typical size of the terms of each constraint row at x: max_j |dg_i/dx_j| * nominal_j."""
+        if getattr(self, "_jac_fn", None) is None:
+            self._jac_fn = ca.Function("jac_g", [self.nlp["x"], self.nlp["p"]], [ca.jacobian(self.nlp["g"], self.nlp["x"])])
+        J = self._jac_fn(x, self.p_values(fs)).sparse().tocsr() if hasattr(ca.DM, "sparse") else None
+        import scipy.sparse as sp
+
+        J = sp.csr_matrix(J) @ sp.diags(self.x_nominal())
+        return np.asarray(abs(J).max(axis=1).todense()).ravel()
+
     def evaluate_report(self, x: np.ndarray, fs: Flowsheet | None = None) -> dict[str, float]:
         """All reportable quantities (SI) at x: stream data, unit outputs, profit terms."""
         vals = np.asarray(self.report(x, self.p_values(fs))).ravel()

@@ -112,6 +112,23 @@ class SolverSummary(_Model):
     message: str = ""
 
 
+class Violation(_Model):
+    """A limit or equation not met at the returned point, in its own unit.
+
+    ``relative`` is the violation divided by the size of the bound (or of the
+    equation's terms), used to rank them.
+    """
+
+    what: str
+    name: str
+    value: float
+    bound: Optional[float] = None
+    side: Optional[str] = None
+    violation: float
+    unit: str
+    relative: float
+
+
 class Balance(_Model):
     """Overall balances at the plant boundary (feeds in, products out).
 
@@ -149,6 +166,7 @@ class RunResult(_Model):
     units: list[UnitResult] = Field(default_factory=list)
     solver: SolverSummary
     balance: Optional[Balance] = None
+    violations: list[Violation] = Field(default_factory=list, description="When no solution was reached: what cannot be met, worst first.")
     structure: list[str] = Field(default_factory=list)
     overrides: dict[str, str] = Field(default_factory=dict)
     warm_start: Optional[dict[str, Any]] = None

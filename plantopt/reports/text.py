@@ -70,6 +70,12 @@ def render_run(result: RunResult, *, streams: bool = True) -> str:
         for u in result.units:
             parts = [f"{k} = {_fmt(q.value, 0).strip()} {q.unit}".rstrip() for k, q in u.quantities.items()]
             L.append(f"  {u.name} ({u.type}): " + "; ".join(parts))
+    if result.violations:
+        L.append("")
+        L.append("Not met at the returned point (worst first):")
+        for v in result.violations:
+            bound = f" {v.side} bound {v.bound:.6g}" if v.bound is not None else ""
+            L.append(f"  {v.what} {v.name}: {v.value:.6g} {v.unit}, misses its{bound} by {v.violation:.4g} {v.unit}".rstrip())
     if result.balance is not None:
         b = result.balance
         L.append("")

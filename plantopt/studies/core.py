@@ -22,7 +22,9 @@ from plantopt.results import (
     SolverSummary,
     StreamResult,
     UnitResult,
+    Violation,
 )
+from plantopt.assembly import ROW_DIRECTION, ROW_LIMIT
 
 DEFAULT_DISPLAY = {
     "temperature": "degC",
@@ -189,6 +191,7 @@ def build_result(
         heat_added=to_display(b["heat_added"], "power", eu), work_added=to_display(b["work_added"], "power", eu), energy_unit=eu,
         energy_relative=abs(b["enthalpy_in"] + b["heat_added"] + b["work_added"] - b["enthalpy_out"]) / e_scale,
     )
+    violations = [] if status in ("optimal", "converged") else explain_violations(asm, fs, res, limits, command)
     breakdown = {name: rep[f"profit.{name}"] * pf for name in asm.breakdown_names}
     obj = Objective(value=rep["profit.total"] * pf, unit=fs.profit_unit, breakdown=breakdown)
     kkt = {k: float(v) for k, v in (res.kkt or {}).items() if v is not None and math.isfinite(float(v))}
@@ -203,6 +206,47 @@ def build_result(
     return RunResult(
         command=command, status=status, flowsheet=fs.file, flowsheet_name=fs.name, flowsheet_sha256=fs.sha256,
         tool_version=__version__, data_notice=fs.notice, objective=obj, decisions=decisions, limits=limits,
-        streams=streams, units=units, solver=solver, balance=balance, structure=structure or [], overrides=dict(overrides or {}),
+        streams=streams, units=units, solver=solver, balance=balance, violations=violations, structure=structure or [], overrides=dict(overrides or {}),
         warm_start=ws,
     )
+
+
+def explain_violations(asm: Assembly, fs: Flowsheet, res: Any, limits: list[LimitResult], command: str,
+                       top: int = 15) -> list[Violation]:
+    """Limits and equations not met at the returned (least-infeasible) point, worst first.
+
+    Limits are reported in their own units; equations by name with their
+    residual in SI, relative to the size of the row's bound.
+    """
+    out: list[Violation] = []
+    if command == "optimize":
+        for lim in limits:
+            if lim.violated:
+                side = "lower" if lim.lower is not None and lim.value < lim.lower else "upper"
+                bound = lim.lower if side == "lower" else lim.upper
+                scale = max(abs(bound or 0.0), abs(lim.value), 1e-12)
+                out.append(Violation(what="limit", name=lim.name, value=lim.value, bound=bound, side=side,
+                                     violation=abs(lim.margin), unit=lim.unit, relative=abs(lim.margin) / scale))
+    g = np.asarray(res.g, dtype=float) if res.g is not None else None
+    if g is not None and len(g) == len(asm.rows):
+        lbg, ubg = asm.g_bounds(command if command in ("simulate", "optimize") else "simulate", fs)
+        try:
+            scales = asm.row_scales(np.asarray(res.x, dtype=float), fs)
+        except Exception:  # a report aid only
+            scales = np.ones(len(asm.rows))
+        for i, row in enumerate(asm.rows):
+            if row.type in (ROW_LIMIT,):
+                continue
+            v = max(lbg[i] - g[i], g[i] - ubg[i], 0.0)
+            if not np.isfinite(v) or v <= 0:
+                continue
+            b = lbg[i] if g[i] < lbg[i] else ubg[i]
+            scale = max(abs(b), scales[i], 1e-12)
+            if v / scale < 1e-7:
+                continue
+            what = "utility direction" if row.type == ROW_DIRECTION else ("specification" if row.type == "spec" else "equation")
+            unit = U.si_unit_text(row.kind) if row.kind not in ("dimensionless", "fraction") else ""
+            out.append(Violation(what=what, name=row.name, value=float(g[i]), bound=float(b), side="lower" if g[i] < lbg[i] else "upper",
+                                 violation=float(v), unit=unit, relative=float(v / scale)))
+    out.sort(key=lambda v: -v.relative)
+    return out[:top]

@@ -48,6 +48,20 @@ def load_warm_start(path: str | Path, asm: Assembly) -> dict[str, Any]:
     return out
 
 
+def failed_result(asm: Assembly, fs: Flowsheet, x: np.ndarray, solver: str, message: str):
+    """An NLPResult with status "failed" at ``x`` (used when a solver raised)."""
+    import casadi as ca
+
+    from plantopt.solver import NLPResult, Status
+
+    gfun = ca.Function("g", [asm.nlp["x"], asm.nlp["p"]], [asm.nlp["g"]])
+    ffun = ca.Function("f", [asm.nlp["x"], asm.nlp["p"]], [asm.nlp["f"]])
+    p = asm.p_values(fs)
+    return NLPResult(status=Status.FAILED, x=np.asarray(x, float), f=float(ffun(x, p)), g=np.asarray(gfun(x, p)).ravel(),
+                     lam_g=np.zeros(len(asm.rows)), lam_x=np.zeros(len(asm.slots)), iterations=0, n_eval={}, kkt={},
+                     wall_time=0.0, solver=solver, message=message)
+
+
 def start_point(asm: Assembly, fs: Flowsheet) -> np.ndarray:
     """A start point for optimizing: the simulated base case where it converges,
     else the sequential estimate."""
@@ -115,7 +129,10 @@ def optimize(
     if warm is not None and solver == "sqp":
         ws = {k: v for k, v in warm.items() if k in ("lam_g", "lam_x", "radius")}
         ws["x"] = x0
-    res = solve_nlp(asm.compiled, x0, lbx, ubx, lbg, ubg, p=asm.p_values(fs2), options=opts, warm_start=ws)
+    try:
+        res = solve_nlp(asm.compiled, x0, lbx, ubx, lbg, ubg, p=asm.p_values(fs2), options=opts, warm_start=ws)
+    except Exception as exc:  # a numerical fault inside a solver must not lose the run
+        res = failed_result(asm, fs2, x0, solver, f"solver raised {type(exc).__name__}: {exc}")
     status = str(getattr(res.status, "value", res.status))
     return build_result(asm, fs2, res, command="optimize", status=status,
                         overrides={k: str(v) for k, v in (overrides or {}).items()}, structure=rep.lines())

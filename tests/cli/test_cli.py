@@ -80,3 +80,18 @@ def test_set_changes_the_simulation(demo_path, tmp_path):
     cum = lambda d: next(s for s in d["streams"] if s["name"] == "S_CRUDE")["component_flows"]["cumene"]
     assert cum(db) > cum(da)  # a larger reactor converts more (same feeds, same temperature)
     assert db["overrides"] == {"units.REACTOR.volume": "15"}
+
+
+def test_impossible_contract_exits_1_with_explanation(demo_path, tmp_path):
+    """A production demand above what the feeds allow (propylene feed at most
+    95 kmol/h gives at most ~11,400 kg/h cumene) cannot be met."""
+    out = tmp_path / "infeasible.json"
+    code = main(["optimize", str(demo_path), "--set", "limits.contract_minimum.lower=20000", "--json", str(out), "--quiet"])
+    assert code == 1
+    data = json.loads(out.read_text())
+    assert data["status"] != "optimal"
+    assert data["status"] in ("infeasible", "iteration_limit", "time_limit", "failed")
+    names = [v["name"] for v in data["violations"]]
+    assert "contract_minimum" in names
+    v = next(v for v in data["violations"] if v["name"] == "contract_minimum")
+    assert v["unit"] == "kg/h" and v["bound"] == 20000 and v["violation"] > 5000
