@@ -31,9 +31,11 @@ class Problem:
     name : str
         e.g. ``"hs071"``.
     kind : str
-        ``"hs"``, ``"analytic"``, ``"degenerate"``, ``"nonconvex"`` or ``"infeasible"``.
+        ``"hs"``, ``"analytic"``, ``"degenerate"``, ``"nonconvex"``, ``"flowsheet"``
+        or ``"infeasible"``.
     f_star : float or None
-        Published (HS) or analytic optimal objective; None for infeasible ones.
+        Published (HS) or analytic optimal objective; None for infeasible
+        ones and for those checked against IPOPT only.
     x_star : tuple or None
         Known minimiser where unique and known.
     source : str
@@ -392,7 +394,40 @@ def _infeasible_bounds():
     return ({"x": x, "f": x[0] + x[1], "g": x[0] * x[1]}, [1.0, 1.0], 0.0, 2.0, [10.0], [10.0])
 
 
+def _recycle_loop():
+    """Flowsheet-like: feed, CSTR, perfect separator, recycle with purge (invented numbers).
+
+    Variables: feed F, reactor inlet a_in, outlet a_out, product b_out,
+    recycle r, purge w, purge fraction s, conversion X. First-order CSTR
+    with k V = 5 (flow units) gives X = kV / (a_in + kV). The overall
+    balance F = w + b_out is implied by the others (redundant row, so the
+    constraint gradients are dependent, as with closed balances in real
+    flowsheets). Maximise 10 b_out - 2 F - 0.5 a_in with b_out <= 6.
+    Optimum from IPOPT only (no closed form).
+    """
+    x = _x(8)
+    F, a_in, a_out, b_out, r, w, s_, X = (x[i] for i in range(8))
+    kV = 5.0
+    g = ca.vertcat(
+        a_in - F - r,
+        X * (a_in + kV) - kV,
+        a_out - a_in * (1 - X),
+        b_out - a_in * X,
+        r - (1 - s_) * a_out,
+        w - s_ * a_out,
+        F - w - b_out,  # redundant overall balance
+        b_out,
+    )
+    lbx = [0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.01, 0.0]
+    ubx = [10.0, 100.0, 100.0, 100.0, 100.0, 100.0, 1.0, 1.0]
+    return ({"x": x, "f": -(10 * b_out - 2 * F - 0.5 * a_in), "g": g},
+            [5.0, 8.0, 4.0, 4.0, 3.0, 1.0, 0.25, 0.5], lbx, ubx,
+            [0.0] * 7 + [-inf], [0.0] * 7 + [6.0])
+
+
 OTHER = [
+    Problem("recycle_loop", "flowsheet", None, "IPOPT reference only", _recycle_loop,
+            unique_multipliers=False),
     Problem("circle_linear", "analytic", -2.0, "analytic", _circle_linear, x_star=(-1.0, -1.0),
             lam_g_star=(0.5,)),
     Problem("signs", "analytic", 11.0, "analytic", _signs, x_star=(1.0, 1.0, 0.0, 5.0, 1.0),

@@ -44,7 +44,8 @@ class NLPResult:
     history : list of dict
         One record per iteration (see the iteration log).
     active_set : dict of str to ndarray
-        Index arrays ``x_lower``, ``x_upper``, ``g_lower``, ``g_upper``.
+        Index arrays ``x_lower``, ``x_upper``, ``g_lower``, ``g_upper`` of
+        bounds met to 1e-9 (relative); equality rows are in both ``g`` lists.
     warm_start : dict
         What :func:`~plantopt.solver.solve_nlp` needs to resume: ``x``,
         ``lam_g``, ``lam_x``, ``radius``, ``active_set``.

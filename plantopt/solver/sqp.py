@@ -372,11 +372,12 @@ def _result(cnlp, prob, x, p, lbx, ubx, lbg, ubg, lam_g, lam_x, status, message,
     kkt = dict(un)
     kkt.update({k + "_scaled": v for k, v in sc.items()})
     tol_a = 1e-9
+    eqr = np.isfinite(lbg) & (lbg == ubg)  # equality rows sit at both bounds
     active = {
         "x_lower": np.flatnonzero(np.isfinite(lbx) & (x - lbx <= tol_a * (1 + np.abs(lbx)))),
         "x_upper": np.flatnonzero(np.isfinite(ubx) & (ubx - x <= tol_a * (1 + np.abs(ubx)))),
-        "g_lower": np.flatnonzero(np.isfinite(lbg) & (g - lbg <= tol_a * (1 + np.abs(lbg)))),
-        "g_upper": np.flatnonzero(np.isfinite(ubg) & (ubg - g <= tol_a * (1 + np.abs(ubg)))),
+        "g_lower": np.flatnonzero(eqr | np.isfinite(lbg) & (g - lbg <= tol_a * (1 + np.abs(lbg)))),
+        "g_upper": np.flatnonzero(eqr | np.isfinite(ubg) & (ubg - g <= tol_a * (1 + np.abs(ubg)))),
     }
     return NLPResult(
         status=status, x=np.asarray(x, float), f=float(f), g=g, lam_g=np.asarray(lam_g, float),
