@@ -40,6 +40,7 @@ from plantopt.solver.restoration import elastic_qp
 from plantopt.solver.result import NLPResult
 from plantopt.solver.scaling import make_scaling, variable_scale
 from plantopt.solver.status import Status
+from plantopt.errors import SolverError
 
 #: tolerance (scaled) for calling a constraint active when recomputing multipliers
 _ACTIVE_TOL = 1e-6
@@ -119,12 +120,26 @@ def sqp_solve(
     grad, J = sc.sf * dx * gr0, (sp.diags(sc.sg) @ J0 @ sp.diags(dx)).tocsc()
     y, yx = np.zeros(m), np.zeros(n)
     radius = RADIUS_INIT
+    ws_act = None
     if warm_start:
-        if warm_start.get("lam_g") is not None and warm_start.get("lam_x") is not None:
-            y, yx = prob.scale_multipliers(np.asarray(warm_start["lam_g"], float),
-                                           np.asarray(warm_start["lam_x"], float))
+        lg, lx = warm_start.get("lam_g"), warm_start.get("lam_x")
+        if lg is not None or lx is not None:
+            lg = np.zeros(m) if lg is None else np.asarray(lg, float).reshape(-1)
+            lx = np.zeros(n) if lx is None else np.asarray(lx, float).reshape(-1)
+            if lg.shape != (m,) or lx.shape != (n,):
+                raise SolverError(f"warm_start multipliers must have shapes ({m},), ({n},)")
+            y, yx = prob.scale_multipliers(lg, lx)
         if warm_start.get("radius"):
             radius = float(warm_start["radius"])
+        act = warm_start.get("active_set")
+        if act:
+            # seeds the active-set prediction used by the inertia test
+            ar, ab = np.zeros(m, dtype=int), np.zeros(n, dtype=int)
+            ar[np.asarray(act.get("g_lower", []), dtype=int)] = -1
+            ar[np.asarray(act.get("g_upper", []), dtype=int)] = 1
+            ab[np.asarray(act.get("x_lower", []), dtype=int)] = -1
+            ab[np.asarray(act.get("x_upper", []), dtype=int)] = 1
+            ws_act = (ar, ab)
     if not (warm_start and warm_start.get("lam_g") is not None) and m:
         # Least-squares multipliers on the equality rows (as IPOPT's
         # initialisation): with zeros the first Hessian lacks all constraint
@@ -135,6 +150,8 @@ def sqp_solve(
         if not np.isfinite(y).all() or np.max(np.abs(y), initial=0.0) > 1e3:
             y = np.zeros(m)  # estimate unreliable (IPOPT uses the same 1e3 cap)
     st = _State(z, F, c, grad, J, y, yx)
+    if ws_act is not None:
+        st.act_r, st.act_b = ws_act
     h = prob.violation(c)
     # Upper bound on admissible violation, as the filter entry (u, -inf) of
     # FL2002 sec. 3; a multiple of the initial violation.
