@@ -55,6 +55,22 @@ class _State:
         self.act_b: np.ndarray | None = None
 
 
+def _initial_multipliers(prob: ScaledProblem, st: "_State") -> np.ndarray:
+    """Least-squares multipliers of the equality rows at ``st`` (scaled, shape (m,)).
+
+    As IPOPT's initialisation: with zero multipliers the Hessian lacks all
+    constraint curvature and the QP takes LP-like steps to the box corner.
+    Estimates above 1e3 are discarded (IPOPT's ``constr_mult_init_max``).
+    """
+    n, m = st.z.size, st.c.size
+    eqa = np.where(np.isfinite(prob.cl) & (prob.cl == prob.cu), -1, 0)
+    y, _ = kktmod.ls_multipliers(st.grad, st.J, st.c, prob.cl, prob.cu, st.z, prob.zl, prob.zu,
+                                 eqa, np.zeros(n, dtype=int), max_rounds=1)
+    if not np.isfinite(y).all() or np.max(np.abs(y), initial=0.0) > 1e3:
+        return np.zeros(m)
+    return y
+
+
 def _active_matrix(J: sp.spmatrix, rows: np.ndarray, act_b: np.ndarray | None, n: int) -> sp.csc_matrix:
     """Rows of ``J`` and identity rows of active bounds, shape (k, n)."""
     A = sp.csr_matrix(J)[rows.astype(int)]
@@ -140,16 +156,9 @@ def sqp_solve(
             ab[np.asarray(act.get("x_lower", []), dtype=int)] = -1
             ab[np.asarray(act.get("x_upper", []), dtype=int)] = 1
             ws_act = (ar, ab)
-    if not (warm_start and warm_start.get("lam_g") is not None) and m:
-        # Least-squares multipliers on the equality rows (as IPOPT's
-        # initialisation): with zeros the first Hessian lacks all constraint
-        # curvature and the first QP is an LP-like step to the box corner.
-        eqa = np.where(np.isfinite(prob.cl) & (prob.cl == prob.cu), -1, 0)
-        y, _ = kktmod.ls_multipliers(grad, J, c, prob.cl, prob.cu, z, prob.zl, prob.zu,
-                                     eqa, np.zeros(n, dtype=int), max_rounds=1)
-        if not np.isfinite(y).all() or np.max(np.abs(y), initial=0.0) > 1e3:
-            y = np.zeros(m)  # estimate unreliable (IPOPT uses the same 1e3 cap)
     st = _State(z, F, c, grad, J, y, yx)
+    if not (warm_start and warm_start.get("lam_g") is not None) and m:
+        st.y = _initial_multipliers(prob, st)
     if ws_act is not None:
         st.act_r, st.act_b = ws_act
     h = prob.violation(c)
@@ -227,6 +236,8 @@ def sqp_solve(
             out = _restore(prob, st, filt, radius, tol, max_iter, max_time, t0, it, record, rest)
             st, radius, it, rstat, rmsg = out
             h = prob.violation(st.c)
+            if m:
+                st.y = _initial_multipliers(prob, st)  # restoration has no NLP multipliers
             if rstat is not None:
                 status, message = rstat, rmsg
                 if rstat is Status.INFEASIBLE:
