@@ -29,3 +29,9 @@ def butanes() -> ComponentSystem:
 def benzene_toluene() -> ComponentSystem:
     """The textbook ideal binary for vapour-liquid equilibrium."""
     return ComponentSystem(["benzene", "toluene"])
+
+
+@lru_cache(maxsize=None)
+def shift() -> ComponentSystem:
+    """Water-gas shift with nitrogen as inert."""
+    return ComponentSystem(["carbon monoxide", "water", "carbon dioxide", "hydrogen", "nitrogen"])

@@ -291,13 +291,42 @@ class Component:
         return {k: float(v) for k, v in simple_formula_parser(self.formula).items()}
 
 
-def _gibbs_formation(cas: str, formula: str | None, hf: float) -> float | None:
-    """Ideal-gas Gibbs energy of formation at 298.15 K, J/mol.
+# Standard entropies of the elements in their reference states at 298.15 K
+# and 1 bar, J/mol/K per mole of the reference species (CODATA Key Values
+# for Thermodynamics, Cox, Wagman and Medvedev 1989).
+_ELEMENT_S0 = {
+    "H": (2, 130.680),
+    "O": (2, 205.152),
+    "N": (2, 191.609),
+    "C": (1, 5.74),
+    "S": (1, 32.054),
+    "Cl": (2, 223.081),
+    "F": (2, 202.791),
+    "Ar": (1, 154.846),
+    "He": (1, 126.153),
+}
 
-    Not filled from ``chemicals`` yet (needed only by an equilibrium
-    reactor); give it with :meth:`Component.from_data` meanwhile.
-    """
-    return None
+
+def _gibbs_formation(cas: str, formula: str | None, hf: float) -> float | None:
+    """Ideal-gas Gibbs energy of formation at 298.15 K and 1 bar, J/mol:
+    ``Hf - 298.15 (S0 - sum_e n_e S0_e)`` with the species' absolute entropy
+    from ``chemicals`` and the elements' from :data:`_ELEMENT_S0`; None
+    when a datum is missing."""
+    from chemicals.elements import simple_formula_parser
+    from chemicals.reaction import S0g
+
+    if formula is None:
+        return None
+    s0 = S0g(cas)
+    if s0 is None:
+        return None
+    s_el = 0.0
+    for el, count in simple_formula_parser(formula).items():
+        if el not in _ELEMENT_S0:
+            return None
+        atoms_per, s = _ELEMENT_S0[el]
+        s_el += count / atoms_per * s
+    return hf - T_REF * (float(s0) - s_el)
 
 
 def _liquid_volume_data(cas: str, tc: float, pc: float, zc: float, condensable: bool, sources: dict) -> tuple:

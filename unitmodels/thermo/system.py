@@ -152,6 +152,27 @@ class ComponentSystem:
             out.append(e)
         return ca.vertcat(*out)
 
+    def g_ig(self, T: Any) -> Any:
+        """Ideal-gas molar Gibbs energies at 1 bar, J/mol, shape (n, 1), on the
+        formation basis: ``g(298.15 K) = Gf``, ``g(T) = h_ig(T) - T s(T)`` with
+        ``s(T) = (Hf - Gf)/298.15 + integral_{298.15}^{T} Cp/T dT``. Element
+        terms cancel in any atom-balanced reaction, so
+        ``sum nu_i g_i(T)`` is the standard Gibbs energy of reaction.
+
+        Raises
+        ------
+        UnitConfigError
+            When a component has no Gibbs energy of formation.
+        """
+        out = []
+        for i, c in enumerate(self.components):
+            if c.gibbs_formation is None:
+                raise UnitConfigError("components", f"{c.name} has no Gibbs energy of formation (needed for chemical equilibrium)")
+            s298 = (c.formation_enthalpy - c.gibbs_formation) / T_REF
+            ds = self.cp_ig_over_t_integral(T_REF, T)[i]
+            out.append(self.h_ig(T)[i] - T * (s298 + ds))
+        return ca.vertcat(*out)
+
     def h_ig(self, T: Any) -> Any:
         """Ideal-gas molar enthalpies (elements at 298.15 K = 0), J/mol, shape (n, 1)."""
         return ca.vertcat(*[c.formation_enthalpy + _poly_integral(c.cp_gas, T) for c in self.components])
@@ -237,6 +258,10 @@ class ComponentSystem:
     def cp_ig_over_t_integral_num(self, T1: float, T2: float) -> np.ndarray:
         """Numeric :meth:`cp_ig_over_t_integral`, J/mol/K, shape (n,)."""
         return self._num("cp_ig_over_t_integral", T1, T2)
+
+    def g_ig_num(self, T: float) -> np.ndarray:
+        """Numeric :meth:`g_ig`, J/mol, shape (n,)."""
+        return self._num("g_ig", T)
 
     def psat_num(self, T: float) -> np.ndarray:
         """Numeric :meth:`psat`, Pa, shape (n,)."""

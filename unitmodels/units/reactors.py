@@ -415,3 +415,202 @@ class PFR(_Reacting):
             guess=g,
             reacting=True,
         )
+
+
+class _ExtentReactor(_Reacting):
+    """Reactor whose extents follow from a condition other than kinetics
+    (a fixed conversion, chemical equilibrium): shared balances."""
+
+    def ports(self) -> list[Port]:
+        return [Port("inlet", "in"), Port("outlet", "out")]
+
+    def outlet_phases(self, inlet_phases: Mapping[str, list[str]]) -> dict[str, str]:
+        return {"outlet": self.options["phase"]}
+
+    def variables(self) -> list[Var]:
+        return [Var("Q", "W", nominal=1.0e5, doc="heat added")] + [
+            Var(f"extent.{r.name}", "mol/s", nominal=1.0, doc=f"molar extent of reaction {r.name}") for r in self.reactions
+        ]
+
+    def specs(self) -> list[Spec]:
+        return [Spec("temperature", "temperature", "thermal", "outlet temperature"),
+                Spec("duty", "power", "thermal", "heat added (0 for adiabatic)")]
+
+    def _balances(self, s: Symbols) -> list[Any]:
+        i, o = s.port("inlet"), s.port("outlet")
+        sys = self.system
+        gen = ca.SX.zeros(sys.n)
+        for r in self.reactions:
+            gen = gen + ca.DM(r.nu(sys)) * s.x[f"extent.{r.name}"]
+        res = [o.F[k] - i.F[k] - gen[k] for k in range(sys.n)]
+        res.append(sys.enthalpy_flow(i.F, i.T, i.phase) + s.x["Q"] - sys.enthalpy_flow(o.F, o.T, o.phase))
+        res.append(o.P - (i.P - s.p["pressure_drop"]))
+        return res
+
+    def _balance_names(self) -> list[str]:
+        return [f"balance.{c}" for c in self.system.names] + ["energy", "pressure"]
+
+    def spec_expression(self, name: str, s: Symbols) -> Any:
+        if name == "temperature":
+            return s.port("outlet").T
+        if name == "duty":
+            return s.x["Q"]
+        return super().spec_expression(name, s)
+
+    def heat_duty(self, s: Symbols) -> Any:
+        return s.x["Q"]
+
+    def outputs(self, s: Symbols) -> dict[str, tuple[Any, str]]:
+        i, o = s.port("inlet"), s.port("outlet")
+        out: dict[str, tuple[Any, str]] = {"duty": (s.x["Q"], "W")}
+        for r in self.reactions:
+            out[f"extent.{r.name}"] = (s.x[f"extent.{r.name}"], "mol/s")
+        for c in self.reactants():
+            k = self.system.index(c)
+            out[f"conversion.{c}"] = ((i.F[k] - o.F[k]) / ca.fmax(i.F[k], 1e-30), "")
+        return out
+
+
+@register
+class ConversionReactor(_ExtentReactor):
+    """Reactor with a given conversion of a key component per reaction.
+
+    ``extent_j * (-nu_key,j) = conversion_j * F_in,key_j``: each conversion
+    is a fraction of the key component's *inlet* flow (parallel reactions
+    sharing a key must have conversions summing to at most 1). The
+    conversions are parameters ``conversion.<reaction>`` (equipment
+    performance); kinetic data of the reactions are not used.
+    Residuals (n + 2 + R): balances, energy, pressure, one conversion
+    equation per reaction. Specification (group "thermal"):
+    ``temperature`` or ``duty``.
+    """
+
+    kind = "conversion_reactor"
+    description = "reactor with specified conversions"
+    options_declared = (
+        Option("reactions", list, None, None, "names of the reactions (flowsheet `reactions` table)"),
+        Option("key_components", list, None, None, "key component of each reaction, same order"),
+        Option("phase", str, "liquid", ("liquid", "vapour"), "phase of the outlet"),
+        Option("utility", str, None, None, "utility supplying or removing the duty"),
+    )
+
+    def validate(self) -> None:
+        super().validate()
+        keys = self.options.get("key_components")
+        names = self.options["reactions"]
+        if not isinstance(keys, list) or len(keys) != len(names):
+            raise UnitConfigError("key_components", f"expected a list of {len(names)} component names (one per reaction)")
+        by_name = {r.name: r for r in self.reactions}
+        for rname, key in zip(names, keys):
+            r = by_name[rname]
+            if r.stoichiometry.get(key, 0.0) >= 0:
+                raise UnitConfigError("key_components", f"{key!r} is not a reactant of reaction {rname}")
+
+    def _keys(self) -> dict[str, str]:
+        return dict(zip(self.options["reactions"], self.options["key_components"]))
+
+    def parameters(self) -> list[Param]:
+        return [Param("pressure_drop", "pressure_difference", 0.0)] + [
+            Param(f"conversion.{r.name}", "fraction", None, category="operating", lower=0.0, upper=1.0,
+                  doc=f"fraction of the inlet {self._keys()[r.name]} converted by {r.name}")
+            for r in self.reactions
+        ]
+
+    def residuals(self, s: Symbols) -> list[Any]:
+        i = s.port("inlet")
+        res = self._balances(s)
+        for r in self.reactions:
+            key = self._keys()[r.name]
+            k = self.system.index(key)
+            res.append(s.x[f"extent.{r.name}"] * (-r.stoichiometry[key]) - s.p[f"conversion.{r.name}"] * i.F[k])
+        return res
+
+    def residual_names(self) -> list[str]:
+        return self._balance_names() + [f"conversion.{r.name}" for r in self.reactions]
+
+    @classmethod
+    def conformance_case(cls, system: Any = None) -> ConformanceCase:
+        from unitmodels._examples import esterification
+        from unitmodels.kinetics import Reaction
+
+        system = system or esterification()
+        rx = Reaction("esterification", {"acetic acid": -1, "ethanol": -1, "ethyl acetate": 1, "water": 1})
+        u = cls("R3", system, {"reactions": ["esterification"], "key_components": ["acetic acid"]}, reactions=[rx])
+        return ConformanceCase(u, {"inlet": [([1.0, 1.2, 0.0, 0.3], 320.0, 2.0e5, "liquid")]}, {"duty": 0.0},
+                               {"conversion.esterification": 0.65, "pressure_drop": 1.0e4}, reacting=True)
+
+
+@register
+class EquilibriumReactor(_ExtentReactor):
+    """Gas-phase reactor at chemical equilibrium (ideal gas).
+
+    For each reaction ``sum_i nu_i ln(y_i P / P0) + dG_j(T*) / (R T*) = 0``
+    with ``P0 = 1 bar``, ``dG_j = sum_i nu_i g_i`` from the Gibbs energies
+    of formation and ideal-gas heat capacities
+    (:meth:`ComponentSystem.g_ig`), and ``T* = T + approach_temperature``
+    (a common-practice way to represent a reactor that stops short of
+    equilibrium; default 0). The logarithms need every species of a
+    reaction present (``y_i > 0``), so start from a point with some of
+    each product. Kinetic data of the reactions are not used.
+    Residuals (n + 2 + R). Specification (group "thermal"):
+    ``temperature`` or ``duty``.
+    """
+
+    kind = "equilibrium_reactor"
+    description = "gas-phase chemical-equilibrium reactor"
+    options_declared = (
+        Option("reactions", list, None, None, "names of the reactions (flowsheet `reactions` table)"),
+        Option("phase", str, "vapour", ("vapour",), "only gas-phase equilibrium is modelled"),
+        Option("utility", str, None, None, "utility supplying or removing the duty"),
+    )
+
+    P0 = 1.0e5
+
+    def validate(self) -> None:
+        super().validate()
+        for c in self.system.components:
+            if any(c.name in r.stoichiometry for r in self.reactions) and c.gibbs_formation is None:
+                raise UnitConfigError("reactions", f"{c.name} has no Gibbs energy of formation; equilibrium needs one")
+
+    def parameters(self) -> list[Param]:
+        return [Param("pressure_drop", "pressure_difference", 0.0),
+                Param("approach_temperature", "temperature_difference", 0.0, category="operating",
+                      doc="K evaluated at T + approach (negative for exothermic reactions to stop short)")]
+
+    def ln_k(self, r: Any, T: Any) -> Any:
+        """ln K of a reaction at temperature T (ideal gas, 1 bar standard state)."""
+        g = self.system.g_ig(T)
+        dg = sum(v * g[self.system.index(c)] for c, v in r.stoichiometry.items())
+        return -dg / (R * T)
+
+    def residuals(self, s: Symbols) -> list[Any]:
+        o = s.port("outlet")
+        res = self._balances(s)
+        tot = ca.sum1(o.F)
+        tstar = o.T + s.p["approach_temperature"]
+        for r in self.reactions:
+            lhs = sum(v * (ca.log(o.F[self.system.index(c)]) - ca.log(tot) + ca.log(o.P / self.P0)) for c, v in r.stoichiometry.items())
+            res.append(lhs - self.ln_k(r, tstar))
+        return res
+
+    def residual_names(self) -> list[str]:
+        return self._balance_names() + [f"equilibrium.{r.name}" for r in self.reactions]
+
+    def outputs(self, s: Symbols) -> dict[str, tuple[Any, str]]:
+        out = super().outputs(s)
+        o = s.port("outlet")
+        for r in self.reactions:
+            out[f"ln_k.{r.name}"] = (self.ln_k(r, o.T + s.p["approach_temperature"]), "")
+        return out
+
+    @classmethod
+    def conformance_case(cls, system: Any = None) -> ConformanceCase:
+        from unitmodels._examples import shift
+        from unitmodels.kinetics import Reaction
+
+        system = system or shift()
+        rx = Reaction("shift", {"carbon monoxide": -1, "water": -1, "carbon dioxide": 1, "hydrogen": 1})
+        u = cls("R4", system, {"reactions": ["shift"]}, reactions=[rx])
+        return ConformanceCase(u, {"inlet": [([1.0, 2.0, 0.1, 0.1, 0.5], 500.0, 2.0e6, "vapour")]}, {"temperature": 700.0},
+                               {"pressure_drop": 5.0e4, "approach_temperature": 0.0},
+                               guess={"outlet": [([0.3, 1.3, 0.8, 0.8, 0.5], 700.0, 1.95e6)], "extent.shift": 0.7}, reacting=True)
