@@ -32,7 +32,7 @@ from plantopt.solver.filter import Filter, acceptable_to_current, update_radius
 from plantopt.solver.inertia import regularise
 from plantopt.solver.nlp import CompiledNLP
 from plantopt.solver.options import (
-    DELTA_FIRST, FILTER_KAPPA, FILTER_SIGMA, H_MAX_FACTOR, RADIUS_INIT, RADIUS_MIN,
+    DELTA_FIRST, FILTER_KAPPA, FILTER_SIGMA, H_MAX_FACTOR, H_MAX_MIN, RADIUS_INIT, RADIUS_MIN,
 )
 from plantopt.solver.problem import ScaledProblem
 from plantopt.solver.qp import QPResult, solve_qp
@@ -164,7 +164,7 @@ def sqp_solve(
     h = prob.violation(c)
     # Upper bound on admissible violation, as the filter entry (u, -inf) of
     # FL2002 sec. 3; a multiple of the initial violation.
-    filt = Filter(h_max=H_MAX_FACTOR * max(1.0, h))
+    filt = Filter(h_max=max(H_MAX_MIN, H_MAX_FACTOR * h))
     rest = {"radius": None}
     eq_rows = np.flatnonzero(np.isfinite(prob.cl) & (prob.cl == prob.cu))
     delta_last = 0.0
