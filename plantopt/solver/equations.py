@@ -166,6 +166,9 @@ def solve_equations(
             if radius < 1e-14 * max(1.0, float(np.linalg.norm(z))):
                 status, message = Status.FAILED, "trust region collapsed: no decrease of the residual"
                 break
+            if not np.isfinite(J.data).all():
+                status, message = Status.FAILED, "Jacobian not finite at the current point"
+                break
             it += 1
             Js = (sp.diags(sg) @ J @ sp.diags(dx)).tocsc()
             grad = Js.T @ F

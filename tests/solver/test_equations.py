@@ -124,3 +124,22 @@ def test_scaling_by_nominals_converges_on_large_magnitudes():
                         options={"x_nominal": [1e4, 1e5], "g_nominal": [1e9, 1e5]})
     assert r.success
     np.testing.assert_allclose(r.x, [2e4, 3e5], rtol=1e-10)
+
+
+def test_non_finite_trial_points_are_rejected():
+    # 1/x - 1/2 = 0 (root 2) from x = 5: the Newton step -7.5 is cut by the
+    # radius 5 to x = 0, where the residual is infinite; that trial must be
+    # rejected (ratio -inf) and the radius shrunk, not raised.
+    nlp = _sys(lambda x: [1 / x[0] - 0.5], 1)
+    r = solve_equations(nlp, [5.0], lbg=[0], ubg=[0])
+    assert r.success and abs(r.x[0] - 2.0) < 1e-8
+    assert any(h["ratio"] == -np.inf and not h["accepted"] for h in r.history)
+
+
+def test_verbose_log_and_counts(capsys):
+    nlp = _sys(lambda x: [x[0] ** 3 - 8], 1)
+    r = solve_equations(nlp, [1.5], lbg=[0], ubg=[0], options={"verbose": 1})
+    out = capsys.readouterr().out
+    assert "iter" in out and "|F|_inf" in out and len(out.splitlines()) >= 3
+    assert r.success and abs(r.x[0] - 2.0) < 1e-9 and r.solver == "newton"
+    assert r.n_eval["jac_g"] >= 1 and r.iterations == len(r.history)
