@@ -346,6 +346,12 @@ class UnitModel(ABC):
         (:mod:`unitmodels.testing`)."""
         raise NotImplementedError(f"{cls.__name__} has no conformance case")
 
+    @classmethod
+    def conformance_cases(cls, system: Any = None) -> list["ConformanceCase"]:
+        """All examples of this unit (one per option mode worth covering);
+        the default is :meth:`conformance_case` alone."""
+        return [cls.conformance_case(system)]
+
     def validate(self) -> None:
         """Check options against components and reactions; raise UnitConfigError."""
 

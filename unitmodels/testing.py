@@ -177,19 +177,20 @@ def solve_case(case: ConformanceCase, max_iter: int = 100, tol: float = 1e-12) -
     scale = np.maximum(np.abs(J).max(axis=1), 1e-300)
     it = 0
     for it in range(1, max_iter + 1):
-        norm = np.abs(gv / scale).max()
-        if norm < tol:
+        if np.abs(gv / scale).max() < tol:
             break
+        merit = float(np.linalg.norm(gv / scale))
         try:
             step = np.linalg.solve(J, -gv)
         except np.linalg.LinAlgError:
             step = np.linalg.lstsq(J, -gv, rcond=None)[0]
+        # Armijo backtracking on the 2-norm of the row-scaled residuals
         t = 1.0
-        while t > 1e-8:
+        while t > 1e-10:
             zt = z.copy()
             zt[idx] += t * step
             gt, Jt = evaluate(zt)
-            if np.all(np.isfinite(gt)) and np.abs(gt / scale).max() < (1 - 1e-4 * t) * norm:
+            if np.all(np.isfinite(gt)) and np.linalg.norm(gt / scale) <= (1 - 1e-4 * t) * merit:
                 break
             t *= 0.5
         z, gv, J = zt, gt, Jt

@@ -21,11 +21,18 @@ from unitmodels.testing import check_case
 KINDS = sorted(REGISTRY)
 
 
-@pytest.mark.parametrize("kind", KINDS)
-def test_conformance(kind):
-    case = REGISTRY[kind].conformance_case()
+CASES = [(kind, i) for kind in KINDS for i in range(len(REGISTRY[kind].conformance_cases()))]
+
+
+@pytest.mark.parametrize("kind, index", CASES)
+def test_conformance(kind, index):
+    case = REGISTRY[kind].conformance_cases()[index]
     assert type(case.unit) is REGISTRY[kind]
     assert check_case(case) == []
+
+
+def test_every_class_has_a_case():
+    assert {k for k, _ in CASES} == set(REGISTRY)
 
 
 def _declared(kind):

@@ -190,3 +190,16 @@ class HeatExchanger(UnitModel):
             {"ua": 2000.0, "pressure_drop_hot": 1.0e4, "pressure_drop_cold": 5.0e3},
             guess={"hot_out": [([0.0, 2.0, 0.0], 340.0, 2.9e5)], "cold_out": [([0.0, 0.0, 3.0], 330.0, 1.95e5)], "Q": 3.0e4},
         )
+
+    @classmethod
+    def conformance_cases(cls, system: Any = None) -> list[ConformanceCase]:
+        base = cls.conformance_case(system)
+        u = cls("E2", base.unit.system, {"mode": "duty", "cold_outlet_phase": "vapour"})
+        duty = ConformanceCase(
+            u,
+            {"hot_in": [([0.0, 2.0, 0.0], 450.0, 3.0e5, "liquid")], "cold_in": [([0.3, 0.0, 0.0], 300.0, 1.0e5, "liquid")]},
+            {"duty": 2.0e4},
+            {"pressure_drop_cold": 5.0e3},
+            guess={"hot_out": [([0.0, 2.0, 0.0], 400.0, 3.0e5)], "cold_out": [([0.3, 0.0, 0.0], 380.0, 0.95e5)], "Q": 2.0e4},
+        )
+        return [base, duty]

@@ -211,6 +211,21 @@ class CSTR(_Reacting):
             reacting=True,
         )
 
+    @classmethod
+    def conformance_cases(cls, system: Any = None) -> list[ConformanceCase]:
+        from unitmodels._examples import shift
+        from unitmodels.kinetics import Reaction
+
+        sysg = shift()
+        rx = Reaction("shift", {"carbon monoxide": -1, "water": -1, "carbon dioxide": 1, "hydrogen": 1},
+                      basis="partial_pressure", rate_per="catalyst_mass", reference_temperature=600.0)
+        u = cls("R5", sysg, {"reactions": ["shift"], "phase": "vapour"}, reactions=[rx])
+        gas = ConformanceCase(
+            u, {"inlet": [([1.0, 2.0, 0.1, 0.1, 0.5], 550.0, 2.0e6, "vapour")]}, {"temperature": 600.0},
+            {"volume": 1.0, "catalyst_mass": 10.0, "shift.pre_exponential": 1.0e-13, "shift.activation_energy": 8.0e4},
+            guess={"outlet": [([0.7, 1.7, 0.4, 0.4, 0.5], 600.0, 2.0e6)], "extent.shift": 0.3}, reacting=True)
+        return [cls.conformance_case(system), gas]
+
 
 @register
 class PFR(_Reacting):
@@ -415,6 +430,23 @@ class PFR(_Reacting):
             guess=g,
             reacting=True,
         )
+
+    @classmethod
+    def conformance_cases(cls, system: Any = None) -> list[ConformanceCase]:
+        from unitmodels._examples import butanes
+        from unitmodels.kinetics import Reaction
+
+        sysb = butanes()
+        rx = Reaction("iso", {"n-butane": -1, "isobutane": 1}, reversible=True, reference_temperature=360.0)
+        u = cls("R6", sysb, {"reactions": ["iso"], "mode": "isothermal", "grid": 5}, reactions=[rx])
+        g = u.guess([2.0, 0.1], 360.0, [1.0, 1.1], 360.0)
+        g["outlet"] = [([1.0, 1.1], 360.0, 2.0e6)]
+        iso = ConformanceCase(
+            u, {"inlet": [([2.0, 0.1], 330.0, 2.0e6, "liquid")]}, {"temperature": 360.0},
+            {"volume": 1.0, "iso.pre_exponential": 1.0e-3, "iso.activation_energy": 6.0e4,
+             "iso.pre_exponential_reverse": 4.0e-4, "iso.activation_energy_reverse": 5.0e4},
+            guess=g, reacting=True)
+        return [cls.conformance_case(system), iso]
 
 
 class _ExtentReactor(_Reacting):

@@ -149,6 +149,18 @@ class Flash(UnitModel):
             guess={"vapour": [([0.3, 0.2], 370.0, 1.0e5)], "liquid": [([0.2, 0.3], 370.0, 1.0e5)], "beta": 0.5, "Q": 3.0e4},
         )
 
+    @classmethod
+    def conformance_cases(cls, system: Any = None) -> list[ConformanceCase]:
+        base = cls.conformance_case(system)
+        sysm = base.unit.system
+        adiabatic = ConformanceCase(
+            cls("D2", sysm), {"inlet": [([0.5, 0.5], 400.0, 5.0e5, "liquid")]}, {"duty": 0.0, "pressure": 101325.0},
+            guess={"vapour": [([0.1, 0.05], 368.0, 1.0e5)], "liquid": [([0.4, 0.45], 368.0, 1.0e5)], "beta": 0.15})
+        subcooled = ConformanceCase(
+            cls("D3", sysm), {"inlet": [([0.5, 0.5], 300.0, 5.0e5, "liquid")]}, {"temperature": 330.0, "pressure": 101325.0},
+            guess={"vapour": [([0.0, 0.0], 330.0, 1.0e5)], "liquid": [([0.5, 0.5], 330.0, 1.0e5)], "beta": 0.0, "s_liquid": 1.0})
+        return [base, adiabatic, subcooled]
+
 
 @register
 class ComponentSeparator(UnitModel):

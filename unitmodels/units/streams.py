@@ -112,6 +112,15 @@ class Feed(UnitModel):
         return ConformanceCase(u, {}, {"mass_flow": 2.5, "temperature": 310.0, "pressure": 2.0e5},
                                {"composition": [0.6, 0.3, 0.1]}, guess={"Ftot": 1.0})
 
+    @classmethod
+    def conformance_cases(cls, system: Any = None) -> list[ConformanceCase]:
+        from unitmodels._examples import aromatics
+
+        system = system or aromatics()
+        vap = ConformanceCase(cls("F2", system, {"phase": "vapour"}), {}, {"molar_flow": 3.0, "temperature": 450.0, "pressure": 1.0e5},
+                              {"composition": [0.2, 0.3, 0.5]}, guess={"Ftot": 1.0})
+        return [cls.conformance_case(system), vap]
+
 
 @register
 class Product(UnitModel):
@@ -200,6 +209,16 @@ class Mixer(UnitModel):
         return ConformanceCase(u, {"inlets": [([1.0, 0.0, 0.1], 300.0, 2.0e5, "liquid"),
                                               ([0.2, 0.8, 0.0], 350.0, 3.0e5, "liquid"),
                                               ([0.0, 0.3, 0.5], 330.0, 2.5e5, "liquid")]})
+
+    @classmethod
+    def conformance_cases(cls, system: Any = None) -> list[ConformanceCase]:
+        from unitmodels._examples import aromatics
+
+        system = system or aromatics()
+        u = cls("M2", system, {"pressure": "specified", "outlet_phase": "vapour"}, port_counts={"inlets": 2})
+        spec = ConformanceCase(u, {"inlets": [([1.0, 0.0, 0.1], 400.0, 2.0e5, "vapour"), ([0.2, 0.8, 0.0], 420.0, 3.0e5, "vapour")]},
+                               {"pressure": 1.5e5})
+        return [cls.conformance_case(system), spec]
 
 
 @register
