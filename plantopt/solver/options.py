@@ -70,6 +70,8 @@ RADIUS_EXPAND = 2.0
 #: initial l-inf radius in scaled variables (x / x_nominal)
 RADIUS_INIT = 10.0
 RADIUS_MAX = 1e6
+#: smallest restoration radius at which 'no predicted decrease' certifies infeasibility
+RADIUS_CERTIFY = 1e-2
 #: below this scaled radius the method declares stagnation
 RADIUS_MIN = 1e-12
 

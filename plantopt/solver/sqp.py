@@ -32,7 +32,7 @@ from plantopt.solver.filter import Filter, acceptable_to_current, update_radius
 from plantopt.solver.inertia import regularise
 from plantopt.solver.nlp import CompiledNLP
 from plantopt.solver.options import (
-    DELTA_FIRST, FILTER_KAPPA, FILTER_SIGMA, H_MAX_FACTOR, H_MAX_MIN, RADIUS_INIT, RADIUS_MIN,
+    DELTA_FIRST, FILTER_KAPPA, FILTER_SIGMA, H_MAX_FACTOR, H_MAX_MIN, RADIUS_CERTIFY, RADIUS_INIT, RADIUS_MIN,
 )
 from plantopt.solver.problem import ScaledProblem
 from plantopt.solver.qp import QPResult, solve_qp
@@ -356,8 +356,13 @@ def _restore(prob, st, filt, radius, tol, max_iter, max_time, t0, it, record, re
         dn = float(np.max(np.abs(es.d), initial=0.0))
         if es.pred <= tol * max(1.0, h):
             record("restoration", np.nan, np.nan, False, it, rad)
-            return st, rad, it, Status.INFEASIBLE, (
-                f"locally infeasible: no predicted decrease of the l1 violation {h:.3e}")
+            # No decrease of the linearised violation: a certificate only if
+            # the trust region did not cause it (step inside the region, or a
+            # region large enough that the violation's slope must be ~0).
+            if dn < 0.99 * rad or rad >= RADIUS_CERTIFY:
+                return st, rad, it, Status.INFEASIBLE, (
+                    f"locally infeasible: no predicted decrease of the l1 violation {h:.3e}")
+            return st, rad, it, Status.FAILED, "restoration stalled in a tiny trust region"
         zt = np.clip(st.z + es.d, prob.zl, prob.zu)
         vals = prob.values(zt)
         ratio = -np.inf
