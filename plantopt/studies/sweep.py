@@ -965,3 +965,51 @@ def _breakpoints(ex: cf.Executor, axes: Sequence[Axis], points: Sequence[SweepPo
                  "after": "", "status": f"error: {type(exc).__name__}: {exc}", "solves": 0, "iterations": 0}
         out.append(Breakpoint(**d, between=between, fixed=fixed))
     return out
+
+
+# ---------------------------------------------------------------------- executors
+class executor_for:
+    """Context manager giving the executor for ``workers`` / ``cluster`` settings.
+
+    ``cluster`` (a Dask scheduler address such as ``tcp://host:8786``) wins;
+    else ``workers`` > 1 gives a local process pool; else ``None`` (serial).
+    Forked workers inherit this process's imports and any primed assembly.
+
+    Raises
+    ------
+    InputError
+        ``workers`` below 1, or the cluster unreachable / Dask not installed.
+    """
+
+    def __init__(self, workers: int | None = None, cluster: str | None = None):
+        if workers is not None and workers < 1:
+            raise InputError(CLI, "--workers", f"expected a whole number of at least 1, got {workers}")
+        self.workers, self.cluster = workers, cluster
+        self._client = None
+        self._pool: cf.Executor | None = None
+
+    def __enter__(self) -> cf.Executor | None:
+        if self.cluster:
+            try:
+                from distributed import Client
+            except ImportError:
+                raise InputError(CLI, "--cluster", "needs dask.distributed: pip install 'plantopt[cluster]'") from None
+            try:
+                self._client = Client(self.cluster, timeout="20s")
+            except (OSError, TimeoutError, ValueError) as exc:
+                raise InputError(CLI, "--cluster", f"cannot reach a Dask scheduler at {self.cluster!r} ({exc})") from None
+            # pure=False: two points with equal arguments are still two solves
+            return self._client.get_executor(pure=False)
+        if self.workers and self.workers > 1:
+            import multiprocessing as mp
+
+            ctx = mp.get_context("fork") if "fork" in mp.get_all_start_methods() else None
+            self._pool = cf.ProcessPoolExecutor(max_workers=self.workers, mp_context=ctx)
+            return self._pool
+        return None
+
+    def __exit__(self, *exc) -> None:
+        if self._pool is not None:
+            self._pool.shutdown(wait=True, cancel_futures=True)
+        if self._client is not None:
+            self._client.close()
