@@ -360,6 +360,7 @@ class UnitModel(ABC):
 
         The default keeps the phase of the first inlet (or the port's fixed
         phase, or an ``outlet_phase`` option when the class declares one).
+        For a variadic outlet port the one phase applies to every stream.
         """
         first = next((ph[0] for ph in inlet_phases.values() if ph), "liquid")
         forced = self.options.get("outlet_phase")

@@ -75,3 +75,30 @@ def test_base_check_specs_exactly_one_per_group():
     assert u.check_specs({"molar_flow", "temperature", "pressure"}) is None
     assert "give only one" in u.check_specs({"molar_flow", "mass_flow", "temperature", "pressure"})
     assert "missing" in u.check_specs({"temperature", "pressure"})
+
+
+def test_suite_catches_broken_units():
+    """The suite is not vacuous: a heater that loses its duty in the energy
+    balance, and one with a missing residual, are both reported."""
+    from unitmodels.units.heat import Heater
+
+    class NoDuty(Heater):
+        kind = "heater_without_duty"  # not registered
+
+        def residuals(self, s):
+            res = super().residuals(s)
+            i, o = s.port("inlet"), s.port("outlet")
+            res[self.system.n] = self.system.enthalpy_flow(i.F, i.T, i.phase) + 0.5 * s.x["Q"] - self.system.enthalpy_flow(o.F, o.T, o.phase)
+            return res
+
+    class Short(Heater):
+        kind = "heater_short"
+
+        def residuals(self, s):
+            return super().residuals(s)[:-1]
+
+    base = Heater.conformance_case()
+    for cls, words in ((NoDuty, "energy balance"), (Short, "residuals but")):
+        case = type(base)(cls("H", base.unit.system, base.unit.options), base.inlets, base.specs, base.params)
+        problems = check_case(case)
+        assert any(words in p for p in problems), problems
