@@ -60,6 +60,10 @@ FILTER_SIGMA = 0.1
 H_MAX_FACTOR = 2.0
 H_MAX_MIN = 10.0
 
+#: relative rounding level of objective values: predicted decreases below
+#: F_NOISE max(1, |F|) cannot be checked by comparing F values (about 100 machine epsilons)
+F_NOISE = 100 * 2.220446049250313e-16
+
 # --- trust region ----------------------------------------------------------
 #: ratio below which the radius is divided by RADIUS_SHRINK
 RATIO_SHRINK = 0.25

@@ -17,6 +17,14 @@ from plantopt.solver.nlp import CompiledNLP
 from plantopt.solver.scaling import Scaling
 
 
+def scale_csc(M: sp.csc_matrix, row: np.ndarray, col: np.ndarray) -> sp.csc_matrix:
+    """``diag(row) @ M @ diag(col)`` for a CSC matrix, on its nonzeros only."""
+    M = sp.csc_matrix(M)
+    cols = np.repeat(np.arange(M.shape[1]), np.diff(M.indptr))
+    data = M.data * row[M.indices] * col[cols]
+    return sp.csc_matrix((data, M.indices, M.indptr), shape=M.shape)
+
+
 @dataclass
 class ScaledProblem:
     """Scaled evaluators and bounds of one solve.
@@ -63,16 +71,14 @@ class ScaledProblem:
         J = self.cnlp.jac(x, self.p)
         if not np.isfinite(gr).all() or not np.isfinite(J.data).all():
             return None
-        Js = (sp.diags(self.sc.sg) @ J @ sp.diags(self.sc.dx)).tocsc()
-        return self.sc.sf * self.sc.dx * gr, Js
+        return self.sc.sf * self.sc.dx * gr, scale_csc(J, self.sc.sg, self.sc.dx)
 
     def hessian(self, z: np.ndarray, sigma: float, y: np.ndarray) -> sp.csc_matrix | None:
         """Scaled Hessian of ``sigma F + y'c``, full symmetric (nx, nx)."""
         H = self.cnlp.hess(self.x(z), self.p, sigma * self.sc.sf, self.sc.sg * y)
         if not np.isfinite(H.data).all():
             return None
-        D = sp.diags(self.sc.dx)
-        return (D @ H @ D).tocsc()
+        return scale_csc(H, self.sc.dx, self.sc.dx)
 
     def violation(self, c: np.ndarray) -> float:
         """l1 norm of the scaled constraint violation."""

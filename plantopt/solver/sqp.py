@@ -32,9 +32,9 @@ from plantopt.solver.filter import Filter, acceptable_to_current, update_radius
 from plantopt.solver.inertia import regularise
 from plantopt.solver.nlp import CompiledNLP
 from plantopt.solver.options import (
-    DELTA_FIRST, FILTER_KAPPA, FILTER_SIGMA, H_MAX_FACTOR, H_MAX_MIN, RADIUS_CERTIFY, RADIUS_INIT, RADIUS_MIN,
+    DELTA_FIRST, F_NOISE, FILTER_KAPPA, FILTER_SIGMA, H_MAX_FACTOR, H_MAX_MIN, RADIUS_CERTIFY, RADIUS_INIT, RADIUS_MIN,
 )
-from plantopt.solver.problem import ScaledProblem
+from plantopt.solver.problem import ScaledProblem, scale_csc
 from plantopt.solver.qp import QPResult, solve_qp
 from plantopt.solver.restoration import elastic_qp
 from plantopt.solver.result import NLPResult
@@ -133,7 +133,7 @@ def sqp_solve(
     prob = ScaledProblem(cnlp, p, sc, lbx / dx, ubx / dx, sc.sg * lbg, sc.sg * ubg)
     z = x / dx
     F, c = sc.sf * f0, sc.sg * g0
-    grad, J = sc.sf * dx * gr0, (sp.diags(sc.sg) @ J0 @ sp.diags(dx)).tocsc()
+    grad, J = sc.sf * dx * gr0, scale_csc(J0, sc.sg, dx)
     y, yx = np.zeros(m), np.zeros(n)
     radius = RADIUS_INIT
     ws_act = None
@@ -213,7 +213,7 @@ def sqp_solve(
         rows = eq_rows if st.act_r is None else np.union1d(eq_rows, np.flatnonzero(st.act_r))
         delta = regularise(H, _active_matrix(st.J, rows, st.act_b, n), delta_last)
         delta_last = delta
-        Hr = (H + delta * sp.identity(n)).tocsc()
+        Hr = (H + delta * sp.identity(n)).tocsc() if delta else H
         lb, ub = lin_bounds(st.z, radius)
         qp = solve_qp(Hr, st.grad, st.J, prob.cl - st.c, prob.cu - st.c, lb, ub)
         for attempt in range(3):
@@ -259,6 +259,8 @@ def sqp_solve(
         lin = st.c + st.J @ d
         pred_h = h - prob.violation(lin)
 
+        noise = F_NOISE * max(1.0, abs(st.F))
+
         def judge(dd: np.ndarray):
             zt = np.clip(st.z + dd, prob.zl, prob.zu)
             vals = prob.values(zt)
@@ -269,7 +271,13 @@ def sqp_solve(
             ok = filt.acceptable(ht, Ft) and acceptable_to_current(ht, Ft, h, st.F)
             if Ft > st.F and ht >= h:
                 ok = False  # worse objective without less violation
-            if ftype:
+            if ftype and pred <= noise:
+                # Predicted decrease below the rounding level of F: the ratio
+                # is noise. Such a final Newton-like step is accepted if it
+                # neither increases the violation nor F beyond rounding.
+                ratio = 1.0
+                ok = ht <= h and Ft <= st.F + noise
+            elif ftype:
                 ratio = (st.F - Ft) / pred
                 ok = ok and ratio >= FILTER_SIGMA
             else:
@@ -398,7 +406,7 @@ def _result(cnlp, prob, x, p, lbx, ubx, lbg, ubg, lam_g, lam_x, status, message,
         y, yx = prob.scale_multipliers(lam_g, lam_x)
         z = x / prob.sc.dx
         grs = prob.sc.sf * prob.sc.dx * gr
-        Js = (sp.diags(prob.sc.sg) @ J @ sp.diags(prob.sc.dx)).tocsc()
+        Js = scale_csc(J, prob.sc.sg, prob.sc.dx)
         sc = kktmod.measures(grs, Js, prob.sc.sg * g, prob.cl, prob.cu, z, prob.zl, prob.zu, y, yx)
     else:
         sc = un
