@@ -170,3 +170,35 @@ class RunResult(_Model):
     structure: list[str] = Field(default_factory=list)
     overrides: dict[str, str] = Field(default_factory=dict)
     warm_start: Optional[dict[str, Any]] = None
+    sensitivity: Optional["Sensitivity"] = None
+
+
+class SensitivityEntry(_Model):
+    """Derivatives of the optimum with respect to one input (``plantopt optimize --sensitivity``).
+
+    ``d_profit`` is d(optimal profit)/d(input) in ``d_profit_unit``;
+    ``d_decisions`` maps each decision to d(decision)/d(input). Valid while the
+    active set does not change.
+    """
+
+    input: str
+    unit: str
+    value: float
+    d_profit: float
+    d_profit_unit: str
+    d_decisions: dict[str, float] = Field(default_factory=dict)
+    d_decisions_units: dict[str, str] = Field(default_factory=dict)
+
+
+class Sensitivity(_Model):
+    """Parametric sensitivity of an optimum, from its KKT system."""
+
+    method: str
+    entries: list[SensitivityEntry] = Field(default_factory=list)
+    active_rows: list[str] = Field(default_factory=list)
+    kkt_condition: float = 0.0
+    regular: bool = True
+    note: str = ""
+
+
+RunResult.model_rebuild()  # resolves the forward reference to Sensitivity
