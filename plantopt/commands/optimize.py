@@ -16,6 +16,8 @@ def add_parser(sub) -> None:
     o.add_argument("--json", metavar="FILE", help="write the result as JSON")
     o.add_argument("--quiet", action="store_true", help="print only the status line")
     o.add_argument("--verbose", action="store_true", help="print the solver's iteration log")
+    o.add_argument("--sensitivity", action="append", nargs="?", const="", metavar="PATH",
+                   help="derivatives of optimal profit and decisions w.r.t. every price (and PATH, repeatable) from the KKT system")
 
 
 def run(args: argparse.Namespace) -> int:
@@ -28,6 +30,14 @@ def run(args: argparse.Namespace) -> int:
     fs = load_flowsheet(args.flowsheet)
     result = optimize(fs, overrides=sets, solver=args.solver, warm_from=args.from_result,
                       options={"verbose": 1} if args.verbose else None)
+    if args.sensitivity is not None and result.status == "optimal":
+        from plantopt.assembly import assemble
+        from plantopt.studies.sensitivity import default_inputs, sensitivity
+
+        asm = assemble(fs)
+        extra = [q for q in args.sensitivity if q]
+        result.sensitivity = sensitivity(fs, result, assembly=asm, overrides=sets,
+                                         inputs=default_inputs(fs, asm) + [q for q in extra if q not in default_inputs(fs, asm)])
     if args.json:
         write_json(args.json, result)
     print(f"status: {result.status}; profit {result.objective.value:,.2f} {result.objective.unit}" if args.quiet else render_run(result))

@@ -81,6 +81,18 @@ def render_run(result: RunResult, *, streams: bool = True) -> str:
         L.append("")
         L.append(f"Overall balance: mass in {b.mass_in:,.6g} / out {b.mass_out:,.6g} {b.mass_unit} (closure {b.mass_relative:.1e}); "
                  f"energy closure {b.energy_relative:.1e}")
+    sens = getattr(result, "sensitivity", None)
+    if sens is not None:
+        L.append("")
+        L.append(f"Sensitivity of the optimum ({sens.method}; valid while the active set holds)")
+        if sens.note:
+            L.append(f"  ** {sens.note} **")
+        names = list(sens.entries[0].d_decisions) if sens.entries else []
+        rows = [[e.input, _fmt(e.value), e.unit, f"{e.d_profit:.5g} {e.d_profit_unit}"] + [_fmt(e.d_decisions[n]) for n in names]
+                for e in sens.entries]
+        L += _table(["input", "value", "unit", "d profit"] + [f"d {n}" for n in names], rows)
+        if sens.entries:
+            L.append("  (d decision in the decision's unit per the input's unit)")
     s = result.solver
     L.append("")
     kkt = ", ".join(f"{k} {v:.2e}" for k, v in s.kkt.items() if not k.endswith("_scaled"))
