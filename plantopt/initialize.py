@@ -139,10 +139,18 @@ def sequential_initial_point(asm: "Assembly", fs: "Flowsheet", passes: int = 3) 
                         x0.append(np.concatenate([np.full(n, 1.0), [300.0, 1e5]]))
             vidx = asm.unit_var_index[uid]
             xv = []
+            hint = {}
+            if sweep == 0:
+                try:
+                    hint = model.initial_guess({pn: [(get_stream(s)[:n], get_stream(s)[n], get_stream(s)[n + 1]) for s in ss]
+                                                for pn, ss in inl})
+                except Exception:  # a guess only
+                    hint = {}
             for v in model.variables():
                 cur = x[vidx[v.name]]
                 if sweep == 0:
-                    cur = min(max(0.0, v.lower), v.upper) if math.isfinite(v.lower) or math.isfinite(v.upper) else 0.0
+                    cur = hint.get(v.name, 0.0)
+                    cur = min(max(cur, v.lower), v.upper)
                 xv.append(cur)
             x0v = np.concatenate(x0 + [np.array(xv)]) if (x0 or xv) else np.zeros(0)
             if local is not None and x0v.size:

@@ -391,6 +391,25 @@ class UnitModel(ABC):
         """Derived quantities for reports and limits: name to (expression, SI unit)."""
         return {}
 
+    def initial_guess(self, inlets: Mapping[str, list[tuple[Any, float, float]]]) -> dict[str, float]:
+        """Start values of internal variables from numeric inlet streams.
+
+        Parameters
+        ----------
+        inlets : mapping
+            Port name to a list of ``(F, T, P)``: component flows (mol/s,
+            numpy array), K, Pa.
+
+        Returns
+        -------
+        dict
+            Variable name to value; variables left out start at 0 (clipped
+            into their bounds). Models with profiles (a discretised reactor)
+            should start them at the inlet state, where 0 would leave
+            compositions undefined.
+        """
+        return {}
+
     def heat_duty(self, s: Symbols) -> Any:
         """Heat added to the process from outside, W (negative when removed)."""
         return 0

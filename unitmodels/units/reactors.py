@@ -6,7 +6,7 @@ from typing import Any, Mapping
 
 import casadi as ca
 
-from unitmodels.base import ConformanceCase, Option, Param, Port, Spec, Symbols, UnitConfigError, UnitModel, Var, register
+from unitmodels.base import INF, ConformanceCase, Option, Param, Port, Spec, Symbols, UnitConfigError, UnitModel, Var, register
 from unitmodels.thermo.component import R
 
 
@@ -289,7 +289,7 @@ class PFR(_Reacting):
     def variables(self) -> list[Var]:
         vs = [Var("Q", "W", nominal=1.0e5, doc="heat added")]
         for k in range(1, self.n_seg):
-            vs += [Var(f"node{k}.F.{c}", "mol/s", nominal=1.0) for c in self.system.names]
+            vs += [Var(f"node{k}.F.{c}", "mol/s", 0.0, INF, nominal=1.0) for c in self.system.names]
             if self.options["mode"] == "duty":
                 vs.append(Var(f"node{k}.T", "K", 150.0, 1500.0, 300.0))
         for k in range(1, self.n_seg + 1):
@@ -301,6 +301,17 @@ class PFR(_Reacting):
         if any(r.rate_per == "catalyst_mass" for r in self.reactions):
             ps.append(Param("catalyst_mass", "mass", None, lower=0.0))
         return ps + self.reaction_parameters()
+
+    def initial_guess(self, inlets: Mapping[str, list[tuple[Any, float, float]]]) -> dict[str, float]:
+        """Every node at the inlet state (flows, temperature); no reaction yet."""
+        F, T, _ = inlets["inlet"][0]
+        out: dict[str, float] = {}
+        for k in range(1, self.n_seg):
+            for i, c in enumerate(self.system.names):
+                out[f"node{k}.F.{c}"] = float(F[i])
+            if self.options["mode"] == "duty":
+                out[f"node{k}.T"] = float(T)
+        return out
 
     def specs(self) -> list[Spec]:
         if self.options["mode"] == "isothermal":
