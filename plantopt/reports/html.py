@@ -69,7 +69,7 @@ def _n(v: Optional[float], digits: int = 4) -> str:
     a = abs(v)
     if a != 0 and (a >= 1e6 or a < 1e-3):
         return f"{v:.{digits - 1}e}"
-    return f"{v:,.{digits}g}" if a >= 1e4 else f"{v:.{digits}g}"
+    return f"{v:,.0f}" if a >= 1e4 else f"{v:.{digits}g}"
 
 
 def _tag(state: str) -> str:
@@ -299,7 +299,9 @@ def render_html(r: ReviewResult) -> str:
                  + ("<span class=\"tag s-clear\">every step inside the limits</span>" if r.ramp.safe else
                     "<span class=\"tag s-violated\">NOT SAFE</span>") + "</p>")
         S.append(_plan_table(r.ramp, r))
-    S.append(f'<p>{_e(r.plan_search)}.</p>')
+    S.append(f'<p>{_e(r.plan_search)}.</p><p class="note">Only the listed steady states are checked; the model says nothing about '
+             "the plant between them or about the transient while it settles, so keep each step small and let the plant settle "
+             "before the next.</p>")
     if r.suggested_plan:
         sp = r.suggested_plan
         S.append(f"<p><b>Suggested sequence</b> ({_e(sp.description)}): " + " &rarr; ".join(_e(o) for o in sp.order) + "</p>")

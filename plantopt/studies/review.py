@@ -519,7 +519,9 @@ class _Engine:
 
     def run_result(self, u: np.ndarray, sol: _Sol) -> RunResult:
         fs = self.set_point(u).copy()
-        return build_result(self.asm, fs, sol.res, command="simulate", status=sol.status, structure=self.structure)
+        out = build_result(self.asm, fs, sol.res, command="simulate", status=sol.status, structure=self.structure)
+        out.warm_start = None  # solver restart data: bulky and of no use to a reader of the review
+        return out
 
 
 # ============================================================================ helpers
