@@ -202,6 +202,8 @@ def check_inputs(
         raise SolverError("x0 and p must be finite")
     if (lbx > ubx).any():
         raise SolverError(f"lbx > ubx at indices {np.flatnonzero(lbx > ubx).tolist()}")
+    if (lbg == np.inf).any() or (ubg == -np.inf).any() or (lbx == np.inf).any() or (ubx == -np.inf).any():
+        raise SolverError("a lower bound of +inf or an upper bound of -inf can never be met")
     if (lbg > ubg).any():
         raise SolverError(f"lbg > ubg at rows {np.flatnonzero(lbg > ubg).tolist()}")
     return x0, lbx, ubx, lbg, ubg, p

@@ -121,9 +121,13 @@ def kkt_solve(
 def polish(
     H: sp.spmatrix, g: np.ndarray, A: sp.spmatrix, l: np.ndarray, u: np.ndarray,
     lb: np.ndarray, ub: np.ndarray, act_r: np.ndarray, act_b: np.ndarray,
-    feas_tol: float = 1e-9,
+    feas_tol: float = 1e-9, rounds: int = 4,
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
     """Re-solve the QP as an equality-constrained one on a given active set.
+
+    The guess from the interior-point iterate is corrected for a few
+    rounds: constraints with a wrongly signed multiplier are released and
+    violated ones are added, then the KKT system is solved again.
 
     Parameters
     ----------
@@ -131,45 +135,52 @@ def polish(
         QP data as in the module docstring.
     act_r, act_b : ndarray of int, shapes (m,), (n,)
         -1/+1 for rows/bounds active at lower/upper, 0 otherwise.
+    feas_tol : float
+        Relative primal feasibility tolerance of the polished step.
+    rounds : int
+        Active-set corrections tried.
 
     Returns
     -------
     (d, y, yx) or None
-        ``None`` when the KKT matrix is singular, the solution violates an
-        inactive constraint by more than ``feas_tol`` (relative), or a
-        multiplier has the wrong sign.
+        ``None`` when no round gives a nonsingular, primal feasible,
+        sign-consistent solution.
     """
     n = H.shape[0]
-    rows = np.flatnonzero(act_r)
-    bnds = np.flatnonzero(act_b)
     A = sp.csr_matrix(A)
-    E = sp.csr_matrix((np.ones(bnds.size), (np.arange(bnds.size), bnds)), shape=(bnds.size, n))
-    M = sp.vstack([A[rows], E], format="csc")
-    b = np.concatenate([np.where(act_r[rows] < 0, l[rows], u[rows]),
-                        np.where(act_b[bnds] < 0, lb[bnds], ub[bnds])])
-    sol = kkt_solve(sp.csc_matrix(H), g, M, b)
-    if sol is None:
-        return None
-    d, lam = sol
-    y = np.zeros(A.shape[0])
-    yx = np.zeros(n)
-    y[rows] = lam[: rows.size]
-    yx[bnds] = lam[rows.size:]
-    Ad = A @ d
-    tol_r = feas_tol * (1.0 + np.abs(Ad))
-    tol_b = feas_tol * (1.0 + np.abs(d))
-    if (Ad < l - tol_r).any() or (Ad > u + tol_r).any():
-        return None
-    if (d < lb - tol_b).any() or (d > ub + tol_b).any():
-        return None
+    Hc = sp.csc_matrix(H)
+    act_r, act_b = act_r.copy(), act_b.copy()
     ineq = l != u
-    scale = 1e-9 * max(1.0, float(np.max(np.abs(lam), initial=0.0)))
-    if ((act_r == -1) & ineq & (y > scale)).any() or ((act_r == 1) & ineq & (y < -scale)).any():
-        return None
-    fixed = lb == ub
-    if ((act_b == -1) & ~fixed & (yx > scale)).any() or ((act_b == 1) & ~fixed & (yx < -scale)).any():
-        return None
-    return d, y, yx
+    free = lb != ub
+    for _ in range(rounds):
+        rows = np.flatnonzero(act_r)
+        bnds = np.flatnonzero(act_b)
+        E = sp.csr_matrix((np.ones(bnds.size), (np.arange(bnds.size), bnds)), shape=(bnds.size, n))
+        M = sp.vstack([A[rows], E], format="csc")
+        b = np.concatenate([np.where(act_r[rows] < 0, l[rows], u[rows]),
+                            np.where(act_b[bnds] < 0, lb[bnds], ub[bnds])])
+        sol = kkt_solve(Hc, g, M, b)
+        if sol is None:
+            return None
+        d, lam = sol
+        y = np.zeros(A.shape[0])
+        yx = np.zeros(n)
+        y[rows] = lam[: rows.size]
+        yx[bnds] = lam[rows.size:]
+        Ad = A @ d
+        tol_r = feas_tol * (1.0 + np.abs(Ad))
+        tol_b = feas_tol * (1.0 + np.abs(d))
+        scale = 1e-9 * max(1.0, float(np.max(np.abs(lam), initial=0.0)))
+        bad_r = ineq & (((act_r == -1) & (y > scale)) | ((act_r == 1) & (y < -scale)))
+        bad_b = free & (((act_b == -1) & (yx > scale)) | ((act_b == 1) & (yx < -scale)))
+        lo_r, hi_r = (Ad < l - tol_r) & (act_r == 0), (Ad > u + tol_r) & (act_r == 0)
+        lo_b, hi_b = (d < lb - tol_b) & (act_b == 0), (d > ub + tol_b) & (act_b == 0)
+        if not (bad_r.any() or bad_b.any() or lo_r.any() or hi_r.any() or lo_b.any() or hi_b.any()):
+            return d, y, yx
+        act_r[bad_r], act_b[bad_b] = 0, 0
+        act_r[lo_r], act_r[hi_r] = -1, 1
+        act_b[lo_b], act_b[hi_b] = -1, 1
+    return None
 
 
 def solve_qp(
