@@ -382,3 +382,33 @@ def test_html_renders_in_headless_chromium(demo_review, tmp_path):
     assert proc.returncode == 0, proc.stderr[-2000:]
     assert shot.exists() and shot.stat().st_size > 10_000
     assert "Uncaught" not in proc.stderr and "CONSOLE(" not in proc.stderr
+
+
+def test_failed_simulation_is_reported_and_exits_1(monkeypatch, tmp_path, capsys):
+    """A proposed point whose square solve does not converge: the review says
+    FAILED, concludes nothing about its limits, and the command exits 1. The
+    failure is injected (every solve after the current point's reports the
+    iteration limit) because no demo point is known to defeat Newton."""
+    import dataclasses
+
+    import plantopt.studies.review as rv
+    from plantopt.solver.status import Status
+
+    real = rv.solve_equations
+    calls = {"n": 0}
+
+    def flaky(*a, **k):
+        res = real(*a, **k)
+        calls["n"] += 1
+        return res if calls["n"] == 1 else dataclasses.replace(res, status=Status.ITERATION_LIMIT)
+
+    monkeypatch.setattr(rv, "solve_equations", flaky)
+    j = tmp_path / "r.json"
+    h = tmp_path / "r.html"
+    assert main(["review", str(DEMO), "--proposed", str(HOT_CSV), "--json", str(j), "--html", str(h)]) == 1
+    assert "REVIEW FAILED" in h.read_text()
+    out = capsys.readouterr().out
+    assert "FAILED" in out and "proposed point did not converge" in out
+    data = json.loads(j.read_text())
+    assert data["status"] == "failed" and data["ramp"] is None
+    assert all(e["proposed"] is None and e["current"] is not None for e in data["limits"])
