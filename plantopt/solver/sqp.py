@@ -330,8 +330,19 @@ def sqp_solve(
                    message, it, history, t0, radius, tol)
 
 
-def _restore(prob, st, filt, radius, tol, max_iter, max_time, t0, it, record, rest):
-    """Feasibility restoration; returns ``(state, radius, it, status or None, message)``."""
+def _restore(
+    prob: ScaledProblem, st: _State, filt: Filter, radius: float, tol: float, max_iter: int,
+    max_time: float, t0: float, it: int, record: Any, rest: dict[str, Any],
+) -> tuple[_State, float, int, Status | None, str]:
+    """Feasibility restoration (see :mod:`plantopt.solver.restoration`).
+
+    Returns
+    -------
+    state, radius, it, status, message
+        ``status`` is None when the method returns to the filter, otherwise
+        the final status (``infeasible`` with the least-infeasible point, or
+        a limit or failure).
+    """
     n, m = prob.cnlp.nx, prob.cnlp.ng
     h = prob.violation(st.c)
     filt.add(h, st.F)
@@ -395,8 +406,13 @@ def _restore(prob, st, filt, radius, tol, max_iter, max_time, t0, it, record, re
             return st, max(rad, RADIUS_INIT), it, None, ""
 
 
-def _result(cnlp, prob, x, p, lbx, ubx, lbg, ubg, lam_g, lam_x, status, message, it,
-            history, t0, radius, tol) -> NLPResult:
+def _result(
+    cnlp: CompiledNLP, prob: ScaledProblem | None, x: np.ndarray, p: np.ndarray,
+    lbx: np.ndarray, ubx: np.ndarray, lbg: np.ndarray, ubg: np.ndarray,
+    lam_g: np.ndarray, lam_x: np.ndarray, status: Status, message: str, it: int,
+    history: list[dict[str, Any]], t0: float, radius: float | None, tol: float,
+) -> NLPResult:
+    """Assemble the result; KKT measures recomputed here from fresh evaluations."""
     f = cnlp.f(x, p)
     g = cnlp.g(x, p)
     gr = cnlp.grad_f(x, p)
