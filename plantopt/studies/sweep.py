@@ -36,6 +36,7 @@ import io
 import itertools
 import json
 import math
+import threading
 import time
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
@@ -346,7 +347,19 @@ def warm_dict(ws: Mapping[str, Any] | None) -> dict | None:
     return out
 
 
+_CASADI_LOCK = threading.RLock()
+"""casadi's symbolic core is not thread-safe (building and evaluating
+expressions from two threads crashed a Dask LocalCluster run with
+processes=False), so threads of one process solve one at a time; processes
+(a process pool, Dask with processes) give the parallelism."""
+
+
 def _solve(task: _Task) -> tuple[RunResult | None, str]:
+    with _CASADI_LOCK:
+        return _solve_locked(task)
+
+
+def _solve_locked(task: _Task) -> tuple[RunResult | None, str]:
     from plantopt.studies.optimize import optimize
 
     key, (fs, asm) = _acquire(task.fs)
