@@ -832,8 +832,10 @@ def run_sweep(
             return
         last_write[0] = now
         write_rows(out, columns, [done[i] for i in sorted(done)])
-        pending = {str(i): w for i, w in warms.items()
-                   if w is not None and any(c not in done for c in children.get(i, []))}
+        # every warm start a chain continues from is kept, so that a rerun
+        # after the table lost rows (or was cut short) restarts each chain
+        # from the same point as the uninterrupted run would
+        pending = {str(i): w for i, w in warms.items() if w is not None and children.get(i)}
         from plantopt.reports.io import atomic_write_text
 
         atomic_write_text(_state_path(out), json.dumps({"fingerprint": fp, "notice": SAFETY_NOTICE, "warm": pending}))
