@@ -127,13 +127,34 @@ def sensitivity(
     def at_row(b):
         return np.isfinite(b) & (np.abs(g - b) <= ACTIVE_REL_TOL * np.maximum.reduce([np.ones_like(b), np.abs(np.where(np.isfinite(b), b, 0.0)), row_scale]))
 
-    act_rows = np.flatnonzero((lbg == ubg) | at_row(lbg) | at_row(ubg))
+    # an interior-point optimum (IPOPT) stays a barrier's width off its
+    # bounds: there a clearly nonzero multiplier with a small margin marks the row
+    scale_b = np.maximum(1.0, row_scale)
+    near = lambda b: np.isfinite(b) & (np.abs(g - b) <= 1e-4 * np.maximum(np.abs(np.where(np.isfinite(b), b, 0.0)), scale_b))
+    strong = np.abs(lam) > 1e-6 * max(1.0, float(np.max(np.abs(lam)))) * 1e-3
+    act_rows = np.flatnonzero((lbg == ubg) | at_row(lbg) | at_row(ubg) | ((near(lbg) | near(ubg)) & strong))
     # a variable bound enters only where its multiplier says it binds: a zero
     # flow of an absent component sits on its bound but is already fixed by
     # the feed's equations, and a second copy of that row would make the KKT
     # matrix singular (LICQ fails) without changing the solution
     lx_scale = max(1.0, float(np.max(np.abs(lam_x)))) if lam_x.size else 1.0
     act_x = np.flatnonzero((at(x, lbx) | at(x, ubx)) & (np.abs(lam_x) > 1e-9 * lx_scale))
+    # keep only the bounds that are independent of the active rows (the
+    # solver may split a multiplier between a feed's equation and the bound
+    # of the same zero flow: the second copy adds nothing but singularity)
+    base = J[act_rows, :] * asm.x_nominal()
+    base = base / np.where(np.linalg.norm(base, axis=1) > 0, np.linalg.norm(base, axis=1), 1.0)[:, None]
+    rank = np.linalg.matrix_rank(base) if len(act_rows) else 0
+    keep = []
+    for j in act_x:
+        e = np.zeros((1, len(x)))
+        e[0, j] = 1.0
+        trial = np.vstack([base, e])
+        r2 = np.linalg.matrix_rank(trial)
+        if r2 > rank:
+            base, rank = trial, r2
+            keep.append(j)
+    act_x = np.array(keep, dtype=int)
     n, m, k = len(x), len(act_rows), len(act_x)
     # scaled variables x = D xs (D: the assembly's nominal values) and rows
     # divided by their Jacobian norms, so SI magnitudes (Pa next to mol/s) do
@@ -186,7 +207,7 @@ def sensitivity(
                 moves = False  # a decision's base value is not a constraint when optimizing
             elif iv.where in (WHERE_LIMIT, WHERE_DECISION):
                 side_b = lbg[i] if q.endswith(".lower") else ubg[i]
-                moves = i in row_pos and abs(g[i] - side_b) <= ACTIVE_REL_TOL * max(1.0, abs(side_b), row_scale[i])
+                moves = i in row_pos and abs(g[i] - side_b) <= 1e-4 * max(1.0, abs(side_b), row_scale[i])
             if moves and i in row_pos:
                 rhs[n + row_pos[i]] = 1.0 / rs[row_pos[i]]  # d(g_i - b_i)/db_i = -1, moved to the right side
                 dprofit_si = float(lam[i])
