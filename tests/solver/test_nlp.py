@@ -211,3 +211,19 @@ def test_misuse_raises():
         solve_nlp(nlp, [0, 0], options={"x_nominal": [1.0, 2.0, 3.0]})
     with pytest.raises(SolverError, match="nlp"):
         solve_nlp({"f": 1}, [0.0])
+
+
+@pytest.mark.parametrize("theta", [0.1, 0.5])
+def test_second_order_correction_on_maratos_example(theta):
+    # min 2(x1^2 + x2^2 - 1) - x1 s.t. x1^2 + x2^2 = 1 (Nocedal & Wright 2006,
+    # Example 15.4): x* = (1, 0), f* = -1, 3 + 2 lam = 0 -> lam = -3/2.
+    # From feasible points on the circle the full SQP step raises both f and
+    # the violation (Maratos effect) and is rejected; the correction rescues it.
+    x = ca.SX.sym("x", 2)
+    nlp = {"x": x, "f": 2 * (x[0] ** 2 + x[1] ** 2 - 1) - x[0], "g": x[0] ** 2 + x[1] ** 2}
+    r = solve_nlp(nlp, [np.cos(theta), np.sin(theta)], lbg=1, ubg=1)
+    assert r.success
+    np.testing.assert_allclose(r.x, [1.0, 0.0], atol=1e-9)
+    assert r.f == pytest.approx(-1.0, abs=1e-10)
+    np.testing.assert_allclose(r.lam_g, [-1.5], atol=1e-9)
+    assert r.history[0]["kind"] == "correction"
