@@ -35,6 +35,23 @@ def kkt_matrix(H: sp.spmatrix, A: sp.spmatrix, delta: float, eps: float = EPS_QD
     return K
 
 
+def kkt_upper(H: sp.spmatrix, A: sp.spmatrix, delta: float, eps: float = EPS_QD) -> sp.csc_matrix:
+    """Upper triangle of :func:`kkt_matrix`, assembled directly from triplets.
+
+    ``sp.bmat`` costs milliseconds per call; the inertia test runs up to a
+    few times per iteration, so the triplets are concatenated by hand.
+    """
+    n, m = H.shape[0], A.shape[0]
+    Hc = sp.coo_matrix(H)
+    keep = Hc.row <= Hc.col
+    Ac = sp.coo_matrix(A)
+    idx_n, idx_m = np.arange(n), np.arange(m)
+    rows = np.concatenate([Hc.row[keep], idx_n, Ac.col, n + idx_m])
+    cols = np.concatenate([Hc.col[keep], idx_n, n + Ac.row, n + idx_m])
+    vals = np.concatenate([Hc.data[keep], np.full(n, delta), Ac.data, np.full(m, -eps)])
+    return sp.csc_matrix((vals, (rows, cols)), shape=(n + m, n + m))
+
+
 def _block_eigs(D: np.ndarray) -> np.ndarray:
     # D of Bunch-Kaufman is block diagonal with 1x1 and 2x2 blocks
     N = D.shape[0]
@@ -50,7 +67,7 @@ def _block_eigs(D: np.ndarray) -> np.ndarray:
     return np.asarray(ev)
 
 
-def inertia(K: sp.spmatrix, dense_fallback: bool = True) -> tuple[int, int, int]:
+def inertia(K: sp.spmatrix, dense_fallback: bool = True, upper: bool = False) -> tuple[int, int, int]:
     """Counts of (positive, negative, zero) pivots of ``LDL'`` of a symmetric matrix.
 
     Parameters
@@ -69,7 +86,7 @@ def inertia(K: sp.spmatrix, dense_fallback: bool = True) -> tuple[int, int, int]
         return (0, 0, 0)
     tiny = 1e-300
     try:
-        fac = qdldl.Solver(sp.triu(K, format="csc"), upper=True)
+        fac = qdldl.Solver(sp.csc_matrix(K) if upper else sp.triu(K, format="csc"), upper=True)
         d = np.asarray(fac.factors()[1]).reshape(-1)
         if np.isfinite(d).all():
             return (int(np.sum(d > tiny)), int(np.sum(d < -tiny)), int(np.sum(np.abs(d) <= tiny)))
@@ -80,7 +97,10 @@ def inertia(K: sp.spmatrix, dense_fallback: bool = True) -> tuple[int, int, int]
     # factorisation (symmetric pivoting) instead; its block-diagonal D has
     # the inertia of K by Sylvester's law.
     if dense_fallback and N <= DENSE_INERTIA_MAX:
-        _, D, _ = sla.ldl(K.toarray(), lower=True)
+        Kd = K.toarray()
+        if upper:  # mirror the strict upper triangle
+            Kd = Kd + np.triu(Kd, 1).T
+        _, D, _ = sla.ldl(Kd, lower=True)
         ev = _block_eigs(D)
         scale = max(1.0, float(np.max(np.abs(ev), initial=0.0)))
         z = 1e-14 * scale
@@ -108,22 +128,22 @@ def regularise(H: sp.spmatrix, A: sp.spmatrix, delta_last: float = 0.0) -> float
     """
     n, m = H.shape[0], A.shape[0]
     want = (n, m, 0)
-    K0 = kkt_matrix(H, A, 0.0)
-    if inertia(K0, dense_fallback=False) == want:
+    K0 = kkt_upper(H, A, 0.0)
+    if inertia(K0, dense_fallback=False, upper=True) == want:
         return 0.0
     scale = max(1.0, float(abs(H).max()) if H.nnz else 1.0)
     # qdldl does not pivot: zero diagonal entries of H (variables entering
     # linearly) can give a zero pivot although the curvature on the null
     # space is fine. A tiny shift separates that case from true negative
     # curvature; the (slower) pivoted factorisation decides if it does not.
-    if inertia(kkt_matrix(H, A, DELTA_TINY * scale), dense_fallback=False) == want:
+    if inertia(kkt_upper(H, A, DELTA_TINY * scale), dense_fallback=False, upper=True) == want:
         return DELTA_TINY * scale
-    if inertia(K0) == want:
+    if inertia(K0, upper=True) == want:
         return 0.0
     delta = max(DELTA_FIRST, delta_last / 3.0)
     delta = max(delta, 1e-8 * scale)
     while delta < DELTA_MAX:
-        if inertia(kkt_matrix(H, A, delta)) == want:
+        if inertia(kkt_upper(H, A, delta), upper=True) == want:
             return delta
         delta *= DELTA_GROW
     return delta

@@ -203,3 +203,13 @@ def test_qp_degenerate_vertex_multipliers_bounded():
     np.testing.assert_allclose(r.d, [1.0, 1.0], atol=1e-7)
     assert np.max(np.abs(np.array([-1.0, -1.0]) + H @ r.d + A.T @ r.y + r.yx)) < 1e-7
     assert (r.y >= -1e-9).all() and (r.y <= 1 + 1e-7).all()
+
+
+def test_kkt_upper_is_the_upper_triangle():
+    rng = np.random.default_rng(3)
+    B = rng.standard_normal((5, 5))
+    H = sp.csc_matrix(B + B.T)
+    A = sp.csc_matrix(rng.standard_normal((2, 5)))
+    from plantopt.solver.inertia import kkt_upper
+    full = kkt_matrix(H, A, 0.3, eps=1e-7).toarray()
+    np.testing.assert_array_equal(kkt_upper(H, A, 0.3, eps=1e-7).toarray(), np.triu(full))
