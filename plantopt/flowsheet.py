@@ -13,8 +13,10 @@ equation system.
 
 from __future__ import annotations
 
+import functools
 import hashlib
 import math
+import os
 import tomllib
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -31,7 +33,81 @@ from plantopt.schema import FlowsheetFile
 from unitmodels.base import REGISTRY, UnitConfigError, UnitModel
 
 MAX_FILE_BYTES = 4 * 1024 * 1024
-"""Default largest flowsheet file accepted (bytes)."""
+"""Default largest input file accepted (bytes): far above any real flowsheet, small enough to parse at once."""
+
+MAX_INPUT_ENV = "PLANTOPT_MAX_INPUT_MB"
+"""Environment variable with the largest input file accepted, in MB (MiB); ``--max-input-mb`` overrides it."""
+
+_max_bytes_setting: int | None = None
+
+
+def set_max_input_bytes(n: int | None) -> None:
+    """Set the size limit every input reader uses (``None``: environment or default).
+
+    The command line sets it once from ``--max-input-mb`` so that every
+    command, including ones that read several files, obeys the same limit.
+    """
+    global _max_bytes_setting
+    _max_bytes_setting = n
+
+
+def parse_megabytes(text: str, *, file: str, path: str) -> int:
+    """A size limit given in MB (MiB) as text, in bytes; refuses non-positive or non-finite values."""
+    try:
+        mb = float(text)
+    except (TypeError, ValueError):
+        raise InputError(file, path, f"expected a positive number of megabytes, got {text!r}") from None
+    if not math.isfinite(mb) or mb <= 0 or mb > 1024 * 1024:
+        raise InputError(file, path, f"expected a positive number of megabytes (at most 1048576), got {text!r}")
+    return max(1, int(mb * 1024 * 1024))
+
+
+def max_input_bytes() -> int:
+    """The size limit in force: the command-line setting, else the environment variable, else the default."""
+    if _max_bytes_setting is not None:
+        return _max_bytes_setting
+    env = os.environ.get(MAX_INPUT_ENV)
+    if env is not None and env.strip():
+        return parse_megabytes(env.strip(), file="<environment>", path=MAX_INPUT_ENV)
+    return MAX_FILE_BYTES
+
+
+def read_input_bytes(path: str | Path, *, max_bytes: int | None = None, what: str = "a flowsheet file") -> bytes:
+    """Read an input file whole, refusing missing, unreadable and oversized files.
+
+    The size is checked before reading so a huge file (or a device such as
+    ``/dev/zero``) is never loaded into memory.
+
+    Raises
+    ------
+    InputErrors
+        One error naming the file.
+    """
+    limit = max_input_bytes() if max_bytes is None else max_bytes
+    p = Path(path)
+    try:
+        if p.is_dir():
+            raise InputErrors([InputError(str(path), "", f"is a directory, expected {what}")])
+        if not p.exists():
+            raise InputErrors([InputError(str(path), "", "file not found")])
+        if not p.is_file():
+            raise InputErrors([InputError(str(path), "", f"not a regular file, expected {what}")])
+        size = p.stat().st_size
+        if size > limit:
+            raise InputErrors([_too_big(str(path), size, limit)])
+        with p.open("rb") as fh:
+            raw = fh.read(limit + 1)
+    except OSError as exc:
+        raise InputErrors([InputError(str(path), "", f"cannot read file ({exc.strerror or exc})")]) from None
+    if len(raw) > limit:  # grew while reading
+        raise InputErrors([_too_big(str(path), len(raw), limit)])
+    return raw
+
+
+def _too_big(fname: str, size: int, limit: int) -> InputError:
+    return InputError(fname, "", f"file is {size} bytes, larger than the limit of {limit} bytes "
+                                 f"(raise it with 'plantopt --max-input-mb N' or {MAX_INPUT_ENV})")
+
 
 STREAM_QUANTITIES = {
     "temperature": "temperature",
@@ -221,15 +297,17 @@ class Flowsheet:
 
 
 # ---------------------------------------------------------------------- loading
-def load_flowsheet(path: str | Path, *, max_bytes: int = MAX_FILE_BYTES) -> Flowsheet:
+def load_flowsheet(path: str | Path, *, max_bytes: int | None = None) -> Flowsheet:
     """Read, validate and check a flowsheet file.
 
     Parameters
     ----------
     path : str or Path
         The TOML file.
-    max_bytes : int
-        Files larger than this are refused before parsing.
+    max_bytes : int, optional
+        Files larger than this are refused before parsing; default
+        :func:`max_input_bytes` (``--max-input-mb``, ``PLANTOPT_MAX_INPUT_MB``
+        or :data:`MAX_FILE_BYTES`).
 
     Returns
     -------
@@ -240,51 +318,128 @@ def load_flowsheet(path: str | Path, *, max_bytes: int = MAX_FILE_BYTES) -> Flow
     InputErrors
         Every problem found, each naming the file and field.
     """
-    p = Path(path)
-    fname = p.name
-    try:
-        raw = p.read_bytes()
-    except FileNotFoundError:
-        raise InputErrors([InputError(str(path), "", "file not found")]) from None
-    except IsADirectoryError:
-        raise InputErrors([InputError(str(path), "", "is a directory, expected a flowsheet file")]) from None
-    except OSError as exc:
-        raise InputErrors([InputError(str(path), "", f"cannot read file ({exc.strerror})")]) from None
-    return loads_flowsheet(raw, fname, max_bytes=max_bytes)
+    limit = max_input_bytes() if max_bytes is None else max_bytes
+    raw = read_input_bytes(path, max_bytes=limit)
+    return loads_flowsheet(raw, Path(path).name, max_bytes=limit)
 
 
-def loads_flowsheet(raw: bytes | str, fname: str = "<string>", *, max_bytes: int = MAX_FILE_BYTES) -> Flowsheet:
+def loads_flowsheet(raw: bytes | str, fname: str = "<string>", *, max_bytes: int | None = None) -> Flowsheet:
     """Like :func:`load_flowsheet` from the file's bytes or text."""
-    data_bytes = raw.encode() if isinstance(raw, str) else raw
-    if len(data_bytes) > max_bytes:
-        raise InputErrors([InputError(fname, "", f"file is {len(data_bytes)} bytes, larger than the limit of {max_bytes} bytes")])
+    limit = max_input_bytes() if max_bytes is None else max_bytes
+    data_bytes = raw.encode("utf-8", "surrogateescape") if isinstance(raw, str) else raw
+    if len(data_bytes) > limit:
+        raise InputErrors([_too_big(fname, len(data_bytes), limit)])
     if not data_bytes.strip():
         raise InputErrors([InputError(fname, "", "file is empty, expected a flowsheet")])
     try:
         text = data_bytes.decode("utf-8")
     except UnicodeDecodeError as exc:
-        raise InputErrors([InputError(fname, "", f"not UTF-8 text (byte {exc.start})")]) from None
+        line = data_bytes[: exc.start].count(b"\n") + 1
+        raise InputErrors([InputError(fname, f"line {line}", f"not UTF-8 text (byte {exc.start}); save the file as UTF-8")]) from None
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        raise InputErrors([InputError(fname, "", f"not valid TOML: {exc}")]) from None
+        raise InputErrors([InputError(fname, "", f"not valid TOML: {_toml_context(exc, text)}")]) from None
     except RecursionError:
-        raise InputErrors([InputError(fname, "", "tables nested too deeply")]) from None
+        raise InputErrors([InputError(fname, "", "tables or lists nested too deeply")]) from None
+    except ValueError as exc:  # an integer longer than Python converts (sys.int_info)
+        why = "an integer with more than 4300 digits" if "digits" in str(exc) else str(exc)
+        raise InputErrors([InputError(fname, "", f"not valid TOML: {why}")]) from None
+    if _depth(data) > MAX_DEPTH:
+        raise InputErrors([InputError(fname, "", f"tables or lists nested more than {MAX_DEPTH} deep; a flowsheet needs at most 5")])
     try:
         doc = FlowsheetFile.model_validate(data)
     except ValidationError as exc:
-        raise InputErrors([_pyd_error(fname, e) for e in exc.errors()]) from None
+        raise InputErrors(_pyd_errors(fname, exc.errors())) from None
     return _Builder(fname, hashlib.sha256(data_bytes).hexdigest(), doc).build()
 
 
-def _pyd_error(fname: str, e: dict) -> InputError:
-    path = ".".join(str(x) for x in e.get("loc", ()))
-    t = e.get("type", "")
-    if t == "extra_forbidden":
-        return InputError(fname, path, "unknown key (check the spelling)")
-    if t == "missing":
-        return InputError(fname, path, "missing (required)")
-    return InputError(fname, path, e.get("msg", "invalid"))
+MAX_DEPTH = 12
+"""Deepest nesting of tables and lists accepted (the deepest real key, e.g. ``economics.utilities.X.price``, is 4)."""
+
+
+def _depth(obj: Any, level: int = 0) -> int:
+    """Nesting depth of parsed TOML, stopping once it exceeds :data:`MAX_DEPTH`."""
+    if level > MAX_DEPTH:
+        return level
+    if isinstance(obj, dict):
+        return max((_depth(v, level + 1) for v in obj.values()), default=level + 1)
+    if isinstance(obj, list):
+        return max((_depth(v, level + 1) for v in obj), default=level + 1)
+    return level
+
+
+def _toml_context(exc: Exception, text: str) -> str:
+    """The parser's message plus the offending line, so a duplicate key is found at once."""
+    import re
+
+    msg = str(exc)
+    m = re.search(r"line (\d+)", msg)
+    if not m:
+        return msg
+    lines = text.splitlines()
+    n = int(m.group(1))
+    if 1 <= n <= len(lines):
+        shown = lines[n - 1].strip()
+        shown = shown if len(shown) <= 80 else shown[:77] + "..."
+        hint = " (a key or table given twice?)" if ("overwrite" in msg.lower() or "twice" in msg) else ""
+        return f"{msg}: {shown!r}{hint}"
+    return msg
+
+
+# Members of a union (``str | float | int``) appear in pydantic's error
+# locations as tags; they are not part of the file's address.
+_UNION_TAGS = {"str", "constrained-str", "float", "int", "bool", "list", "dict"}
+_EXPECTED = {
+    "string_type": "text", "float_type": "a number", "float_parsing": "a number", "int_type": "a number",
+    "int_parsing": "a number", "int_from_float": "a whole number", "bool_type": "true or false",
+    "bool_parsing": "true or false", "dict_type": "a table", "model_type": "a table", "list_type": "a list",
+}
+
+
+def describe_value(v: Any) -> str:
+    """A TOML value described in the file's own terms, for messages (kept short)."""
+    if isinstance(v, bool):
+        return f"the boolean {str(v).lower()}"
+    if isinstance(v, (int, float)):
+        text = str(v)
+        return f"the number {text if len(text) <= 24 else text[:12] + '...'}"
+    if isinstance(v, str):
+        return f"the text {v[:60]!r}" + ("..." if len(v) > 60 else "")
+    if isinstance(v, dict):
+        return "a table"
+    if isinstance(v, list):
+        return "a list"
+    return f"a {type(v).__name__}"  # TOML dates and times
+
+
+def _pyd_errors(fname: str, errors: list[dict]) -> list[InputError]:
+    """Pydantic errors as input errors: one per field, union alternatives merged."""
+    grouped: dict[str, list[dict]] = {}
+    for e in errors:
+        loc = [str(x) for x in e.get("loc", ())]
+        while loc and (loc[-1] in _UNION_TAGS or loc[-1].startswith("function-")):
+            loc.pop()
+        grouped.setdefault(".".join(loc), []).append(e)
+    out = []
+    for path, errs in grouped.items():
+        types = [e.get("type", "") for e in errs]
+        e0 = errs[0]
+        if "extra_forbidden" in types:
+            out.append(InputError(fname, path, "unknown key (check the spelling)"))
+        elif "missing" in types:
+            out.append(InputError(fname, path, "missing (required)"))
+        elif all(t in _EXPECTED for t in types):
+            wanted = list(dict.fromkeys(_EXPECTED[t] for t in types))
+            if "text" in wanted and "a number" in wanted:
+                wanted = ["a quantity as text such as '1.5 kg' (or a number where no unit is needed)"]
+            out.append(InputError(fname, path, f"expected {' or '.join(wanted)}, got {describe_value(e0.get('input'))}"))
+        elif e0.get("type") == "value_error":
+            out.append(InputError(fname, path, str(e0.get("ctx", {}).get("error", e0.get("msg", "invalid")))))
+        else:
+            msg = e0.get("msg", "invalid").replace("Input should be", "expected")
+            out.append(InputError(fname, path, f"{msg}, got {describe_value(e0.get('input'))}"))
+    return out
 
 
 class _Builder:
@@ -302,10 +457,15 @@ class _Builder:
 
     def quantity(self, value: Any, kind: str | U.Kind, path: str) -> pint.Quantity | None:
         try:
-            return U.parse_quantity(value, kind, file=self.f, path=path)
+            q = U.parse_quantity(value, kind, file=self.f, path=path)
         except InputError as e:
             self.errors.append(e)
             return None
+        k = U.resolve_kind(kind)
+        if abs(U.to_si(q, k)) > _absurd_limit(k):
+            self.err(path, f"value {value!r} is absurdly large")
+            return None
+        return q
 
     def add_input(self, path: str, value: Any, kind: str | U.Kind, category: str, where: str,
                   lower: float = -math.inf, upper: float = math.inf) -> InputValue | None:
@@ -314,9 +474,6 @@ class _Builder:
         if q is None:
             return None
         si = U.to_si(q, k)
-        if abs(si) > 1e15:
-            self.err(path, f"value {value!r} is absurdly large")
-            return None
         if not (lower <= si <= upper):
             rng = {(0.0, math.inf): "not negative"}.get((lower, upper), f"between {lower:g} and {upper:g} (SI)")
             self.err(path, f"expected a value {rng}, got {value!r}")
@@ -339,7 +496,7 @@ class _Builder:
                     if extra:
                         self.err(f"{base}.{extra[0]}", "give either 'source' (property data by name or CAS) or user-defined data, not both")
                         continue
-                    comp = Component.from_name(c.source)
+                    comp = _component_from_name(c.source)
                     comps.append(replace(comp, name=cid))
                 else:
                     need = {"molar_mass": "molar_mass", "formation_enthalpy": "molar_energy", "cp_gas": "heat_capacity_molar",
@@ -362,8 +519,9 @@ class _Builder:
                         cp_gas=vals["cp_gas"], cp_liquid=vals["cp_liquid"], antoine_a=c.antoine.a, antoine_b=c.antoine.b,
                         antoine_c=c.antoine.c, liquid_density=vals["liquid_density"], hvap_298=vals["vaporisation_enthalpy"],
                         formula=c.formula))
-            except (KeyError, ValueError, LookupError) as exc:
-                msg = exc.args[0] if exc.args else str(exc)
+            except (KeyError, ValueError, LookupError, TypeError) as exc:
+                # UnitConfigError carries the bare problem; its str() repeats a field name
+                msg = getattr(exc, "problem", None) or (exc.args[0] if exc.args else str(exc))
                 self.err(f"{base}.source" if c.source else base, f"unknown component or incomplete property data: {msg}")
         if not comps:
             if not self.doc.components:
@@ -416,6 +574,9 @@ class _Builder:
         streams: dict[str, StreamInfo] = {}
         specs: dict[str, dict[str, str]] = {}
         split_index: dict[tuple[str, str], int] = {}
+        # streams named by units that could not be built: their other ends are
+        # not reported as dangling (the unit's own error is the one to fix)
+        self.unbuilt_streams: set[str] = set()
         if not self.doc.units:
             self.err("units", "no unit operations given")
         for uid, table in self.doc.units.items():
@@ -423,13 +584,72 @@ class _Builder:
             if not isinstance(table, dict):
                 self.err(base, "expected a table")
                 continue
+            n_errors = len(self.errors)
+            model = self._unit(uid, table, system, reactions, models, types, streams, specs, split_index)
+            if model is None and len(self.errors) > n_errors:
+                for v in table.values():
+                    for name in (v if isinstance(v, list) else [v]):
+                        if isinstance(name, str):
+                            self.unbuilt_streams.add(name)
+        for sname, st in streams.items():
+            if sname in self.unbuilt_streams:
+                continue
+            if st.source is None:
+                u, p, _ = st.dest
+                self.err(f"units.{u}.{p}", f"stream {sname!r} enters here but no unit produces it (a feed or an outlet)")
+            if st.dest is None:
+                u, p, _ = st.source
+                self.err(f"units.{u}.{p}", f"stream {sname!r} leaves here but no unit takes it in (add a product unit)")
+        if not self.errors:
+            self._check_paths(models, types, streams)
+        return models, types, streams, specs, split_index
+
+    def _check_paths(self, models: dict[str, UnitModel], types: dict[str, str], streams: dict[str, StreamInfo]) -> None:
+        """Every unit must lie on a path from a feed to a product.
+
+        A closed loop of units with no feed or no way out has flows the
+        balances cannot fix (any circulating amount satisfies them), which the
+        structure check would only report as unnamed unmatched variables.
+        """
+        nxt: dict[str, set[str]] = {u: set() for u in models}
+        prv: dict[str, set[str]] = {u: set() for u in models}
+        for st in streams.values():
+            if st.source and st.dest:
+                nxt[st.source[0]].add(st.dest[0])
+                prv[st.dest[0]].add(st.source[0])
+
+        def reach(starts: list[str], edges: dict[str, set[str]]) -> set[str]:
+            seen, todo = set(starts), list(starts)
+            while todo:
+                for v in edges[todo.pop()]:
+                    if v not in seen:
+                        seen.add(v)
+                        todo.append(v)
+            return seen
+
+        from_feed = reach([u for u, t in types.items() if t == "feed"], nxt)
+        to_product = reach([u for u, t in types.items() if t == "product"], prv)
+        for uid in models:
+            if uid not in from_feed:
+                self.err(f"units.{uid}", "no feed reaches this unit (every unit needs a path from a feed unit)")
+            elif uid not in to_product:
+                self.err(f"units.{uid}", "no path from this unit to a product unit (its outlets must end in a product)")
+
+    def _unit(self, uid: str, table: dict, system, reactions, models, types, streams, specs, split_index) -> UnitModel | None:
+        """Check and build one unit; record its streams, parameters and specifications."""
+        base = f"units.{uid}"
+        if True:  # (body kept at its original indentation)
             t = table.get("type")
             if t is None:
                 self.err(f"{base}.type", f"missing (one of: {', '.join(sorted(REGISTRY))})")
-                continue
+                return None
+            # the type is only ever a key of the registry dict: nothing named in a file is imported
+            if not isinstance(t, str):
+                self.err(f"{base}.type", f"expected a unit type as text (one of: {', '.join(sorted(REGISTRY))}), got {describe_value(t)}")
+                return None
             if t not in REGISTRY:
                 self.err(f"{base}.type", f"unknown unit type {t!r} (known: {', '.join(sorted(REGISTRY))})")
-                continue
+                return None
             cls = REGISTRY[t]
             # ports are declared on the class; an instance is needed for counts
             probe_ports = cls.ports(cls.__new__(cls))  # ports() must not depend on options
@@ -442,7 +662,7 @@ class _Builder:
                     continue
                 names = v if port.variadic else [v]
                 if not isinstance(names, list) or not all(isinstance(n, str) and n for n in names) or (port.variadic and not names):
-                    self.err(f"{base}.{port.name}", f"expected {'a list of stream names' if port.variadic else 'a stream name'}, got {v!r}")
+                    self.err(f"{base}.{port.name}", f"expected {'a list of stream names' if port.variadic else 'a stream name'}, got {describe_value(v)}")
                     continue
                 if port.variadic:
                     port_counts[port.name] = len(names)
@@ -456,18 +676,25 @@ class _Builder:
                 rnames = options["reactions"]
                 if isinstance(rnames, list):
                     for rn in rnames:
+                        if not isinstance(rn, str):
+                            self.err(f"{base}.reactions", f"expected a list of reaction names, got {describe_value(rn)} in it")
+                            return None
                         if rn not in reactions:
                             if rn not in self.doc.reactions:
                                 self.err(f"{base}.reactions", f"unknown reaction {rn!r} (known: {', '.join(self.doc.reactions) or 'none'})")
                             continue
                         rx_list.append(reactions[rn])
             if system is None or len(connections) < len(probe_ports):
-                continue
+                return None
             try:
                 model = cls(uid, system, options=options, port_counts=port_counts, reactions=rx_list)
             except UnitConfigError as e:
                 self.err(f"{base}.{e.field}", e.problem)
-                continue
+                return None
+            except (TypeError, ValueError, KeyError, AttributeError, IndexError) as e:
+                # a unit model that does not check an option's type itself: still an input problem, not a crash
+                self.err(base, f"invalid options for a {t} ({', '.join(sorted(options)) or 'none'}): {type(e).__name__}: {e}")
+                return None
             models[uid] = model
             types[uid] = t
             for port in model.ports():
@@ -571,14 +798,7 @@ class _Builder:
                         break
             if problem:
                 self.err(base, problem)
-        for sname, st in streams.items():
-            if st.source is None:
-                u, p, _ = st.dest
-                self.err(f"units.{u}.{p}", f"stream {sname!r} enters here but no unit produces it (a feed or an outlet)")
-            if st.dest is None:
-                u, p, _ = st.source
-                self.err(f"units.{u}.{p}", f"stream {sname!r} leaves here but no unit takes it in (add a product unit)")
-        return models, types, streams, specs, split_index
+            return model
 
     def economics(self, types: dict[str, str]):
         e = self.doc.economics
@@ -650,8 +870,21 @@ class _Builder:
             self.err("economics.profit_unit", f"unknown unit {e.profit_unit!r}")
         return feeds, products, disposal, utilities, fixed
 
+    def display(self) -> None:
+        """Display units must name a kind of quantity and be a unit of it, or reports would mislabel values."""
+        for kind, unit in self.doc.flowsheet.display.items():
+            path = f"flowsheet.display.{kind}"
+            if kind not in U.KINDS or kind == "fraction":
+                self.err(path, f"unknown kind of quantity (known: {', '.join(k for k in U.KINDS if k != 'fraction')})")
+                continue
+            try:
+                U.parse_quantity(f"1 {unit}", kind, file=self.f, path=path)
+            except InputError as e:
+                self.err(path, f"expected a unit of {U.KINDS[kind].noun}, got {unit!r} ({e.problem})")
+
     def build(self) -> Flowsheet:
         d = self.doc
+        self.display()
         system = self.components()
         reactions = self.reactions(system)
         models, types, streams, specs, split_index = self.units(system, reactions)
@@ -737,6 +970,30 @@ class _Builder:
                 fs.limits.append(info)
 
 
+ABSURD_SI = 1e15
+"""Largest magnitude accepted for a standard kind of quantity, in SI (1e15 W, 1e15 Pa, 1e15 mol/s: none is physical)."""
+ABSURD_SI_CUSTOM = 1e60
+"""The same for quantities in model-specific units (rate constants, whose size depends on the reaction orders)."""
+
+
+def _absurd_limit(k: U.Kind) -> float:
+    return ABSURD_SI_CUSTOM if k.name == "custom" else ABSURD_SI
+
+
+@functools.lru_cache(maxsize=512)
+def _component_from_name(source: str) -> Any:
+    """Property data of a named species, looked up once per process.
+
+    The lookup reads the property-data package's tables (about a second per
+    species); a study or a test that loads the same file many times must not
+    repeat it. Unknown names raise every time (exceptions are not cached),
+    but the package's own name index is loaded only once.
+    """
+    from unitmodels.thermo import Component
+
+    return Component.from_name(source)
+
+
 def _spec_range(kind: str) -> tuple[float, float]:
     k = U.resolve_kind(kind).name
     if k in ("molar_flow", "mass_flow", "volume_flow", "temperature", "pressure", "volume"):
@@ -771,7 +1028,16 @@ def steam_latent_heat(pressure_pa: float) -> float:
 
 
 def quantity_kind(fs: Flowsheet, address: str) -> U.Kind:
-    """Kind of a limitable quantity address; KeyError with a message if unknown."""
+    """Kind of a limitable quantity address; KeyError with a message if unknown.
+
+    ``"a + b + ..."`` is the sum of addresses of one kind (a shared header:
+    the total steam duty of several heaters)."""
+    if "+" in address:
+        terms = [a.strip() for a in address.split("+")]
+        kinds = [quantity_kind(fs, a) for a in terms]
+        if any(k.name != kinds[0].name for k in kinds):
+            raise KeyError(f"a sum of quantities needs one kind, got {', '.join(sorted({k.name for k in kinds}))} in {address[:200]!r}")
+        return kinds[0]
     parts = address.split(".")
     if len(parts) >= 3 and parts[0] == "streams":
         sname, q = parts[1], parts[2]

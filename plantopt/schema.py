@@ -19,11 +19,27 @@ File layout (all keys in plain process-engineering terms)::
 
 from __future__ import annotations
 
-from typing import Any, Literal, Optional, Union
+import math
+from typing import Annotated, Any, Literal, Optional, Union
 
-from pydantic import BaseModel, ConfigDict, Field
+from pydantic import AfterValidator, BaseModel, ConfigDict, Field
 
-Number = Union[float, int]
+
+def _finite_number(v: float | int) -> float | int:
+    """Refuse NaN, infinities and integers too large for a float.
+
+    TOML allows ``nan`` and ``inf`` and integers of any length; none of them is
+    a usable coefficient (stoichiometry, orders, Antoine constants), and a huge
+    integer would overflow only later, far from the field that caused it.
+    """
+    if isinstance(v, int) and abs(v) > 10**15:
+        raise ValueError(f"expected a number of ordinary size, got an integer with {len(str(abs(v)))} digits")
+    if isinstance(v, float) and not math.isfinite(v):
+        raise ValueError(f"expected a finite number, got {v}")
+    return v
+
+
+Number = Annotated[Union[float, int], AfterValidator(_finite_number)]
 QuantityText = Union[str, float, int]
 
 

@@ -88,6 +88,41 @@ _K = [
 KINDS: dict[str, Kind] = {k.name: k for k in _K}
 
 _NUMBER = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
+# Unit text is handed to pint's parser, which evaluates exponent towers such as
+# "m**3**3**3**3" exactly (a hang) and accepts arbitrary numeric factors. Only
+# plain unit names, small numbers, "*", "/", "^", "**" with a short numeric
+# exponent and parentheses are let through, and the text is kept short.
+MAX_UNIT_TEXT = 64
+"""Longest unit text accepted (characters)."""
+_UNIT_CHARS = re.compile(r"^[A-Za-z0-9_ .*/^()%°µμΩ·+-]*$")
+_UNIT_POWER = re.compile(r"(\*\*|\^)\s*(\(?\s*[-+]?\s*)(\d*\.?\d*)(\s*\)?)")
+_UNIT_NUMBER = re.compile(r"(?<![A-Za-z_\d.])(\d+\.?\d*|\.\d+)(?![\d.])")
+
+
+def _unit_text_problem(text: str) -> str | None:
+    """Why a unit text is refused before it reaches pint, or None if it may be parsed."""
+    if len(text) > MAX_UNIT_TEXT:
+        return f"unit text longer than {MAX_UNIT_TEXT} characters"
+    if not _UNIT_CHARS.match(text):
+        return "unit text contains characters no unit uses"
+    if text.count("(") != text.count(")") or text.count("(") > 4:
+        return "unbalanced or too many parentheses in the unit"
+    ends = []
+    for m in _UNIT_POWER.finditer(text):
+        digits = m.group(3)
+        if not digits or digits == "." or len(digits.replace(".", "")) > 3 or abs(float(digits)) > 12:
+            return "exponent in the unit must be a small number (at most 12)"
+        if re.match(r"[eE][-+]?\d", text[m.end(3):]):
+            return "exponent in the unit must be a small number (at most 12)"
+        ends.append(m.end())
+    for end in ends:
+        if re.match(r"\s*(\*\*|\^)", text[end:]):
+            return "chained exponents in the unit"
+    for m in _UNIT_NUMBER.finditer(text):
+        if len(m.group(1)) > 6:
+            return "numbers in the unit must be short (e.g. '1/s')"
+    return None
+
 _OFFSET_UNITS = {"degC", "degF", "degree_Celsius", "degree_Fahrenheit", "celsius", "fahrenheit", "degRe", "°C", "°F"}
 
 
@@ -140,6 +175,9 @@ def parse_quantity(value: Any, kind: str | Kind, *, file: str = "", path: str = 
     dimensionless = k.si == "dimensionless"
     if isinstance(value, bool):
         raise InputError(file, path, f"expected {k.noun}, got a boolean ({value})")
+    if isinstance(value, int) and abs(value) > 10**300:
+        # float() of a huge TOML integer raises OverflowError; refuse it as absurd
+        raise InputError(file, path, f"expected {k.noun}, got an integer with {len(str(abs(value)))} digits")
     if isinstance(value, (int, float)):
         if not math.isfinite(float(value)):
             raise InputError(file, path, f"expected a finite number, got {value}")
@@ -161,6 +199,9 @@ def parse_quantity(value: Any, kind: str | Kind, *, file: str = "", path: str = 
         if dimensionless:
             return _check_fraction(Q_(number, "dimensionless"), k, file, path)
         raise DimensionError(file, path, f"{k.noun} with a unit", value, "bare number")
+    refused = _unit_text_problem(unit_text)
+    if refused:
+        raise InputError(file, path, f"cannot read unit '{unit_text[:MAX_UNIT_TEXT]}' ({refused})")
     try:
         unit = ureg.Unit(unit_text)
     except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError, AttributeError, TypeError, ValueError, AssertionError) as exc:
@@ -179,6 +220,13 @@ def parse_quantity(value: Any, kind: str | Kind, *, file: str = "", path: str = 
             raise DimensionError(file, path, k.noun, value, "a temperature difference")
     if q.dimensionality != k.dimensionality:
         raise DimensionError(file, path, k.noun, value, _dimension_words(q))
+    try:
+        si = float(q.to(k.si).magnitude)
+    except (OverflowError, pint.errors.PintError, ValueError) as exc:
+        raise InputError(file, path, f"cannot convert '{value}' to {k.si}") from exc
+    if not math.isfinite(si):
+        # e.g. "1e308 kmol/s" overflows on conversion to SI
+        raise InputError(file, path, f"expected a finite number, got '{value}' ({si} in {k.si})")
     return _check_fraction(q, k, file, path)
 
 
