@@ -18,6 +18,8 @@ import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
+from plantopt.solver.inertia import kkt_matrix
+
 
 def measures(
     grad: np.ndarray, J: sp.spmatrix, c: np.ndarray, cl: np.ndarray, cu: np.ndarray,
@@ -53,15 +55,16 @@ def _ls_solve(M: sp.csc_matrix, grad: np.ndarray) -> np.ndarray | None:
     if k == 0:
         return np.zeros(0)
     rhs = np.concatenate([-grad, np.zeros(k)])
+    I = sp.identity(n, format="csc")
+    K0 = kkt_matrix(I, M, 0.0, 0.0)
     for eps in (0.0, 1e-12):
-        K = sp.bmat([[sp.identity(n), M.T], [M, -eps * sp.identity(k) if eps else None]], format="csc")
+        K = kkt_matrix(I, M, 0.0, eps) if eps else K0
         try:
             lu = spla.splu(K)
         except RuntimeError:
             continue
         sol = lu.solve(rhs)
         if eps:
-            K0 = sp.bmat([[sp.identity(n), M.T], [M, None]], format="csc")
             for _ in range(5):  # refine towards the unregularised system
                 sol = sol + lu.solve(rhs - K0 @ sol)
         if np.isfinite(sol).all():

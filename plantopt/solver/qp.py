@@ -25,6 +25,7 @@ import piqp
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
+from plantopt.solver.inertia import kkt_matrix
 from plantopt.solver.kkt import ls_multipliers
 
 
@@ -85,7 +86,7 @@ def kkt_solve(
     One step of iterative refinement is applied.
     """
     n, k = H.shape[0], M.shape[0]
-    K = sp.bmat([[H, M.T], [M, None]], format="csc") if k else sp.csc_matrix(H)
+    K = kkt_matrix(H, M, 0.0, 0.0)
     rhs = np.concatenate([-g, b])
     try:
         lu = spla.splu(K)
@@ -100,7 +101,7 @@ def kkt_solve(
         if k == 0:
             return None
         eps = 1e-9 * max(1.0, float(abs(K).max()))
-        Kr = sp.bmat([[H + eps * sp.identity(n), M.T], [M, -eps * sp.identity(k)]], format="csc")
+        Kr = kkt_matrix(H, M, eps, eps)
         try:
             lu = spla.splu(Kr)
         except RuntimeError:
