@@ -342,6 +342,11 @@ def assemble(fs: Flowsheet) -> Assembly:
             report_exprs.append(e)
 
     def quantity_expr(address: str) -> Any:
+        if "+" in address:  # a sum of addresses (checked by the loader to share one kind)
+            total = ca.SX(0)
+            for a in address.split("+"):
+                total = total + quantity_expr(a.strip())
+            return total
         parts = address.split(".")
         if parts[0] == "streams":
             return _stream_quantities(system, streams[parts[1]])[".".join(parts[2:])]

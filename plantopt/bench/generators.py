@@ -86,12 +86,7 @@ temperature = "25 degC"
 pressure = "30 bar"
 composition = {{ benzene = 0.52, propylene = 0.45, propane = 0.03 }}
 
-[units.HEADER]
-type = "splitter"
-inlet = "S_FEED"
-outlets = [{header_outlets}]
-fraction = {{ {header_fractions} }}
-
+{header}
 [units.BLEND]
 type = "mixer"
 inlets = [{blend_inlets}]
@@ -140,7 +135,7 @@ vapour = "{t}_S6"
 liquid = "{t}_CRUDE"
 temperature = "130 degC"
 pressure = "2.5 bar"
-utility = "steam_lp"
+utility = "steam_mp"
 
 [units.{t}_PURGE]
 type = "splitter"
@@ -256,14 +251,71 @@ upper = "{feed_hi:.6g} kmol/h"
 """
 
 
-def trains_for_units(units: int) -> int:
-    """Number of trains whose site has about ``units`` unit operations (at least 1)."""
-    return max(1, int(round((units - SHARED_UNITS) / TRAIN_UNITS)))
+def trains_for_units(units: int, header_fanout: int = 16) -> int:
+    """Number of trains whose site has closest to ``units`` unit operations (at least 1)."""
+    n = max(1, int(round((units - SHARED_UNITS) / TRAIN_UNITS)))
+    # sub-header splitters add about 1/fanout of a unit per train: step down to the closest
+    while n > 1 and abs(site_units(n - 1, header_fanout) - units) <= abs(site_units(n, header_fanout) - units):
+        n -= 1
+    return n
 
 
-def site_units(trains: int) -> int:
-    """Unit operations of a site of ``trains`` trains."""
-    return SHARED_UNITS + TRAIN_UNITS * trains
+def _tree(leaves: int, fanout: int) -> list[list[int]]:
+    """Sizes of the splitter levels of a header tree over ``leaves`` outlets,
+    from the trains up: level sizes until one splitter remains."""
+    levels = []
+    n = leaves
+    while True:
+        k = -(-n // fanout)  # splitters on this level
+        levels.append(k)
+        if k == 1:
+            return levels
+        n = k
+
+
+def site_units(trains: int, header_fanout: int = 16) -> int:
+    """Unit operations of a site of ``trains`` trains (header splitters included)."""
+    return SHARED_UNITS - 1 + sum(_tree(trains, header_fanout)) + TRAIN_UNITS * trains
+
+
+def _header_tree(inlet: str, outlets: list[str], fanout: int) -> tuple[str, str]:
+    """Units and fraction decisions of a feed header from ``inlet`` to ``outlets``.
+
+    One splitter when ``len(outlets) <= fanout``, else a tree of splitters of
+    at most ``fanout`` outlets each, sharing the outlets about equally. Each
+    splitter gives N - 1 fractions (the last follows from their sum), and
+    each given fraction is a decision in [0, 1].
+    """
+    if fanout < 2:
+        raise ValueError("header_fanout must be at least 2")
+    units: list[str] = []
+    decisions: list[str] = []
+    # (stream, trains served): base fractions share the feed equally per train
+    level = [(o, 1) for o in outlets]
+    depth = 0
+    while True:
+        groups = [level[i:i + fanout] for i in range(0, len(level), fanout)]
+        top = len(groups) == 1
+        nxt = []
+        for j, pairs in enumerate(groups):
+            grp = [o for o, _ in pairs]
+            served = sum(w for _, w in pairs)
+            name = "HEADER" if top else f"HEADER_L{depth}_{j:04d}"
+            src = inlet if top else f"S_{name}"
+            fr = ", ".join(f"{o} = {w / served:.12g}" for o, w in pairs[:-1])
+            outs = ", ".join(f'"{o}"' for o in grp)
+            units.append(f'[units.{name}]\ntype = "splitter"\ninlet = "{src}"\noutlets = [{outs}]\n'
+                         f"fraction = {{ {fr} }}\n")
+            for o in grp[:-1]:
+                decisions.append(f'\n[decisions.share_{o}]\ninput = "units.{name}.fraction.{o}"\nlower = 0.0\nupper = 1.0\n')
+            nxt.append((src, served))
+        if top:
+            break
+        level = nxt
+        depth += 1
+    return "\n".join(units), "".join(decisions)
+
+
 
 
 def _train_data(k: int) -> tuple[float, float]:
@@ -278,20 +330,28 @@ def _train_data(k: int) -> tuple[float, float]:
     return 10.0 + 4.0 * a, 21.0 + 8.0 * b
 
 
-def site_flowsheet(trains: int, *, supply_factor: float = 0.92, steam_factor: float = 0.85) -> str:
+def site_flowsheet(trains: int, *, supply_factor: float = 0.92, steam_factor: float = 0.85,
+                   header_fanout: int = 16) -> str:
     """TOML text of a site of ``trains`` parallel trains (invented data).
 
     Parameters
     ----------
     trains : int
         Number of parallel trains (>= 1); the site has
-        ``4 + 8 * trains`` unit operations.
+        :func:`site_units` unit operations.
     supply_factor : float
         Feed-header supply limit as a fraction of the decision's upper
         bound; below 1 so the shared supply, not the decision range, binds.
     steam_factor : float
         Steam-header capacity as a fraction of the trains' steam use at the
-        base case's upper trim temperature; below 1 so the header binds.
+        trains' unconstrained optimum (about 1.5 MW each, invented); below
+        1 so the header binds.
+    header_fanout : int
+        Most outlets of one feed-header splitter. Larger sites get a tree
+        of sub-headers, as real distribution headers do; it also keeps every
+        row and column of the Jacobian short (a splitter with N outlets has
+        a dense row, the fraction sum, and dense columns, its inlet, which
+        makes colouring-based derivative generation O(N^2)).
 
     Returns
     -------
@@ -304,28 +364,19 @@ def site_flowsheet(trains: int, *, supply_factor: float = 0.92, steam_factor: fl
     # base per-train fresh feed as in the demo (80 + 70 kmol/h), shared equally
     per_train = 150.0
     feed = per_train * trains
-    header_outlets = ", ".join(f'"{t}_FEED"' for t in names)
-    # N - 1 fractions given; the last follows from their sum
-    header_fractions = ", ".join(f"{t}_FEED = {1.0 / trains:.12g}" for t in names[:-1])
+    header, header_decisions = _header_tree("S_FEED", [f"{t}_FEED" for t in names], header_fanout)
     blend_inlets = ", ".join(f'"{t}_CRUDE"' for t in names)
-    parts = [_HEADER.format(n=trains, units=site_units(trains), feed=feed, header_outlets=header_outlets,
-                            header_fractions=header_fractions, blend_inlets=blend_inlets)]
+    parts = [_HEADER.format(n=trains, units=site_units(trains, header_fanout), feed=feed, header=header,
+                            blend_inlets=blend_inlets)]
     for k, t in enumerate(names, start=1):
         volume, ua = _train_data(k)
         # cooling capacity scales with the reactor (invented: 125 kW per m3)
         parts.append(_TRAIN.format(t=t, ua=ua, volume=volume, cooling=-125.0 * volume))
-    # a header splitter's fraction decisions: N - 1 of them (the last follows)
-    for t in names[:-1]:
-        parts.append(f"""
-[decisions.{t}_feed_share]
-input = "units.HEADER.fraction.{t}_FEED"
-lower = 0.0
-upper = 1.0
-""")
+    parts.append(header_decisions)
     fuel_gas = ", ".join(f'{t}_FUEL_GAS = "0.18 USD/kg"' for t in names)
-    steam_sum = " + ".join(f"units.{t}_TRIM.duty" for t in names)
-    # invented: about 400 kW of trim steam per train at the base case
+    steam_sum = " + ".join(f"units.{t}_TRIM.duty + units.{t}_FLASH.duty" for t in names)
+    # invented: about 1.5 MW of trim and flash steam per train at the unconstrained optimum
     parts.append(_ECONOMICS.format(fuel_gas=fuel_gas, fixed=450.0 * trains, supply=supply_factor * 1.3 * feed,
-                                   steam_sum=steam_sum, steam_cap=steam_factor * 400.0 * trains,
+                                   steam_sum=steam_sum, steam_cap=steam_factor * 1500.0 * trains,
                                    feed_lo=0.6 * feed, feed_hi=1.3 * feed))
     return "".join(parts)
