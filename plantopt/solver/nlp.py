@@ -57,6 +57,18 @@ class CompiledNLP:
     hess_lag: _SparseFn
     n_eval: dict[str, int] = field(default_factory=dict)
 
+    @property
+    def jac_g_sparsity(self) -> sp.csc_matrix:
+        """Structural pattern of the constraint Jacobian, boolean CSC (ng, nx)."""
+        j = self.jac_g
+        return sp.csc_matrix((np.ones(j.indices.size, bool), j.indices, j.indptr), shape=j.shape)
+
+    @property
+    def hess_sparsity(self) -> sp.csc_matrix:
+        """Structural pattern of the Lagrangian Hessian (full storage), boolean CSC (nx, nx)."""
+        hs = self.hess_lag
+        return sp.csc_matrix((np.ones(hs.indices.size, bool), hs.indices, hs.indptr), shape=hs.shape)
+
     def reset_counts(self) -> None:
         """Zero the evaluation counters."""
         self.n_eval = {"f": 0, "grad_f": 0, "g": 0, "jac_g": 0, "hess_lag": 0}

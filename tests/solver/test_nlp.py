@@ -104,6 +104,9 @@ def test_compiled_nlp_reused_and_parameters():
         np.testing.assert_allclose(r.x, [pv - t, 2 * pv - t], atol=1e-9)
         np.testing.assert_allclose(r.lam_g, [2 * t], atol=1e-9)
     assert c.hess_lag.fn is fn
+    # patterns: (x1 - p)^2 + (x2 - 2p)^2 has a diagonal Hessian; the row x1 + x2 is dense
+    assert c.hess_sparsity.toarray().tolist() == [[True, False], [False, True]]
+    assert c.jac_g_sparsity.toarray().tolist() == [[True, True]]
 
 
 def test_warm_start_sweep_not_slower():
