@@ -20,7 +20,7 @@ import os
 import tomllib
 from dataclasses import dataclass, field, replace
 from pathlib import Path
-from typing import Any, Iterable
+from typing import Any, Iterable, Mapping
 
 import pint
 from pydantic import ValidationError
@@ -267,16 +267,65 @@ class Flowsheet:
         if isinstance(value, str):
             try:
                 num = float(value)
-                text: Any = f"{num} {iv.unit}" if iv.unit else num
             except ValueError:
-                text = value
+                text: Any = value
+            else:
+                if not math.isfinite(num):
+                    raise InputError(source, path, f"expected a finite number, got {value!r}")
+                text = f"{value.strip()} {iv.unit}" if iv.unit else num
         else:
             text = f"{value} {iv.unit}" if iv.unit else value
         q = U.parse_quantity(text, iv.kind, file=source, path=path)
         si = U.to_si(q, iv.kind)
+        if abs(si) > _absurd_limit(iv.kind):
+            raise InputError(source, path, f"value {value!r} is absurdly large")
         if not (iv.lower <= si <= iv.upper):
-            raise InputError(source, path, f"value {value} is outside the allowed range of this input")
+            raise InputError(source, path, f"expected {_range_words(iv)}, got {value!r}")
         iv.si = si
+
+    def with_overrides(self, overrides: Mapping[str, Any] | None, *, source: str = "<command line>") -> "Flowsheet":
+        """A copy with every override applied and the result checked as a whole.
+
+        Each override is checked alone (address, unit, range) and then the
+        combination: a decision's lower bound not above its upper bound and
+        its base value inside them, a limit's lower bound not above its upper,
+        a feed composition summing to one. Every problem is reported at once.
+
+        Raises
+        ------
+        InputErrors
+        """
+        new = self.copy()
+        errors: list[InputError] = []
+        for path, value in (overrides or {}).items():
+            try:
+                new.set_input(path, value, source=source)
+            except InputError as e:
+                errors.append(e)
+        if errors:
+            raise InputErrors(errors)
+        touched = set(overrides or {})
+        for d in new.decisions:
+            if not touched & {d.input, d.lower_path, d.upper_path}:
+                continue
+            lo, hi, base = new.inputs[d.lower_path], new.inputs[d.upper_path], new.inputs[d.input]
+            if lo.si > hi.si:
+                errors.append(InputError(source, f"decisions.{d.name}", f"lower {lo.display():g} {lo.unit} is above upper {hi.display():g} {hi.unit}"))
+            elif not lo.si - 1e-12 * abs(lo.si) <= base.si <= hi.si + 1e-12 * abs(hi.si):
+                errors.append(InputError(source, d.input, f"the base value {base.display():g} {base.unit} lies outside the range "
+                                                          f"of decisions.{d.name} [{lo.display():g}, {hi.display():g}] {lo.unit}"))
+        for lim in new.limits:
+            if lim.lower_path and lim.upper_path and touched & {lim.lower_path, lim.upper_path}:
+                lo, hi = new.inputs[lim.lower_path], new.inputs[lim.upper_path]
+                if lo.si > hi.si:
+                    errors.append(InputError(source, f"limits.{lim.name}", f"lower {lo.display():g} is above upper {hi.display():g} {hi.unit}"))
+        for prefix in {p.rsplit(".", 1)[0] for p in touched if ".composition." in p}:
+            total = sum(iv.si for p, iv in new.inputs.items() if p.rsplit(".", 1)[0] == prefix)
+            if abs(total - 1.0) > 1e-6:
+                errors.append(InputError(source, prefix, f"mole fractions sum to {total:.6g}, expected 1"))
+        if errors:
+            raise InputErrors(errors)
+        return new
 
     def value(self, path: str) -> float:
         return self.inputs[path].si
@@ -992,6 +1041,23 @@ def _component_from_name(source: str) -> Any:
     from unitmodels.thermo import Component
 
     return Component.from_name(source)
+
+
+def _range_words(iv: InputValue) -> str:
+    """An input's allowed range in words, in its own unit where it has one."""
+    lo, hi = iv.lower, iv.upper
+    if lo == 0.0 and hi == math.inf:
+        return "a value not negative"
+    def show(v: float) -> str:
+        try:
+            return f"{replace(iv, si=v).display():g} {iv.unit}".strip()
+        except Exception:  # an odd unit: fall back to SI
+            return f"{v:g} (SI)"
+    if hi == math.inf:
+        return f"a value of at least {show(lo)}"
+    if lo == -math.inf:
+        return f"a value of at most {show(hi)}"
+    return f"a value between {show(lo)} and {show(hi)}"
 
 
 def _spec_range(kind: str) -> tuple[float, float]:

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import argparse
 
-from plantopt.commands.common import EXIT_OK
+from plantopt.commands.common import EXIT_OK, check_outputs
 
 
 def add_parser(sub) -> None:
@@ -18,6 +18,7 @@ def run(args: argparse.Namespace) -> int:
     from plantopt.reports.io import write_json
     from plantopt.reports.text import render_inputs
 
+    check_outputs((args.json, "--json"))
     fs = load_flowsheet(args.flowsheet)
     rows = input_rows(fs)
     print(render_inputs(rows))

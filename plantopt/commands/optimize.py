@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import argparse
 
-from plantopt.commands.common import EXIT_NOT_SOLVED, EXIT_OK, parse_sets
+from plantopt.commands.common import EXIT_NOT_SOLVED, EXIT_OK, check_input_file, check_outputs, parse_sets
 
 
 def add_parser(sub) -> None:
@@ -27,7 +27,10 @@ def run(args: argparse.Namespace) -> int:
     from plantopt.studies.optimize import optimize
 
     sets = parse_sets(args.set)
+    check_outputs((args.json, "--json"))
+    check_input_file(args.from_result, "--from")
     fs = load_flowsheet(args.flowsheet)
+    fs.with_overrides(sets)  # every --set checked, alone and together, before any solve
     result = optimize(fs, overrides=sets, solver=args.solver, warm_from=args.from_result,
                       options={"verbose": 1} if args.verbose else None)
     if args.sensitivity is not None and result.status == "optimal":

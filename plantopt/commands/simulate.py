@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import argparse
 
-from plantopt.commands.common import EXIT_NOT_SOLVED, EXIT_OK, parse_sets
+from plantopt.commands.common import EXIT_NOT_SOLVED, EXIT_OK, check_outputs, parse_sets
 
 
 def add_parser(sub) -> None:
@@ -22,7 +22,9 @@ def run(args: argparse.Namespace) -> int:
     from plantopt.studies.simulate import simulate
 
     sets = parse_sets(args.set)
+    check_outputs((args.json, "--json"))
     fs = load_flowsheet(args.flowsheet)
+    fs.with_overrides(sets)  # every --set checked, alone and together, before any solve
     result = simulate(fs, overrides=sets)
     if args.json:
         write_json(args.json, result)
