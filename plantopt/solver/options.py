@@ -90,7 +90,7 @@ DELTA_TINY = 1e-10
 DELTA_GROW = 8.0
 DELTA_MAX = 1e20
 #: largest KKT size for the dense Bunch-Kaufman inertia fallback when qdldl breaks down
-DENSE_INERTIA_MAX = 3000
+DENSE_INERTIA_MAX = 500
 #: quasi-definite lower-right block -EPS_QD I of the KKT matrix
 EPS_QD = 1e-10
 

@@ -360,7 +360,7 @@ def _restore(
             return st, rad, it, Status.FAILED, "trust region collapsed in restoration"
         if prob.violation_inf(st.c) <= tol:
             rest["radius"] = rad
-            return st, max(rad, RADIUS_INIT), it, None, ""
+            return st, max(2.0 * rad, 1e-3), it, None, ""
         it += 1
         Hc = prob.hessian(st.z, 0.0, yr)
         if Hc is None:
@@ -399,11 +399,13 @@ def _restore(
             h = ht
         record("restoration", float(ratio), np.nan, accepted, it, rad)
         if accepted and filt.acceptable(h, st.F):
-            # Each regular iteration starts from at least the initial radius
-            # (FLT2002 use a fixed lower bound on the starting radius), so a
-            # small restoration radius does not make the next QP inconsistent.
+            # Back to the filter with twice the restoration radius: that radius
+            # was earned by the violation model. (Resetting to RADIUS_INIT
+            # made long sparse chains cycle: large rejected step, radius cut,
+            # inconsistent QP, restoration -- 158 vs 73 iterations on a
+            # 3000-variable chain; HS 39 prefers the reset, 22 vs 61.)
             rest["radius"] = rad
-            return st, max(rad, RADIUS_INIT), it, None, ""
+            return st, max(2.0 * rad, 1e-3), it, None, ""
 
 
 def _result(
