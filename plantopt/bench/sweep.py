@@ -55,6 +55,14 @@ def main(argv: Sequence[str] | None = None) -> int:
     warm_it = table[1][2]
     print(f"target: warm <= 0.5 x cold iterations: {'met' if warm_it <= 0.5 * cold_it else 'NOT met'} "
           f"({warm_it} vs {cold_it}); warm wall time {table[1][5] / cold_t:.2f} x cold")
+    try:
+        import os
+
+        la = os.getloadavg()
+        print(f"load average {la[0]:.1f} on {os.cpu_count()} cores during the runs (other work on the machine "
+              "distorts the wall times and the speed-up)")
+    except (AttributeError, OSError):  # not on every platform
+        pass
     print(SAFETY_NOTICE)
     return 0
 

@@ -816,10 +816,17 @@ def run_sweep(
             children.setdefault(pt.warm_parent, []).append(pt.index)
 
     ex = executor or _Inline()
-    if executor is None and assembly is not None:
-        prime_pool(base_fs if base_fs is not fs else fs.copy(), assembly)
-    elif executor is None:
-        pass
+    # build (and compile) the NLP here once: the serial run uses it, and
+    # workers forked from this process inherit it instead of rebuilding
+    if assembly is None:
+        from plantopt.assembly import assemble
+
+        assembly = assemble(base_fs)
+    assembly.compiled  # noqa: B018  (compiles the derivative functions)
+    import plantopt.solver.ipopt  # noqa: F401  (imported before a fork, not in each worker)
+    import plantopt.solver.sqp  # noqa: F401
+
+    prime_pool(base_fs if base_fs is not fs else fs.copy(), assembly)
 
     total = len(points)
     last_write = [0.0]
