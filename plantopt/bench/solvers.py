@@ -5,6 +5,11 @@ Prints one row per problem and a summary per solver: solved count (status
 as expected: optimal with ``f`` matching the reference, or infeasible for
 infeasible problems), median iterations over problems solved by both,
 total function evaluations and total wall time.
+
+Counting: an SQP iteration is one QP solve, including the last one that
+verifies optimality without stepping (so a problem solved by one step
+counts 2); IPOPT's count is its ``iter_count``. Evaluations are all calls
+of f, grad f, g, jac g and the Lagrangian Hessian (IPOPT: its n_call_*).
 """
 
 from __future__ import annotations
@@ -78,7 +83,8 @@ def table(rows: list[dict]) -> str:
     out.append("")
     both = [nm for nm in names if all(by[(nm, s)]["solved"] for s in SOLVERS)]
     out.append(f"{'solver':<8}{'solved':>10}{'median iter':>13}{'total evals':>13}{'wall s':>9}"
-               f"   (median over the {len(both)} problems both solve; * = not solved)")
+               f"   (median over the {len(both)} problems both solve; * = not solved;"
+               f" SQP iterations include the final verifying QP)")
     for s in SOLVERS:
         mine = [r for r in rows if r["solver"] == s]
         med = statistics.median(by[(nm, s)]["iterations"] for nm in both) if both else float("nan")
