@@ -271,12 +271,14 @@ def sqp_solve(
             ok = filt.acceptable(ht, Ft) and acceptable_to_current(ht, Ft, h, st.F)
             if Ft > st.F and ht >= h:
                 ok = False  # worse objective without less violation
-            if ftype and pred <= noise:
-                # Predicted decrease below the rounding level of F: the ratio
-                # is noise. Such a final Newton-like step is accepted if it
-                # neither increases the violation nor F beyond rounding.
+            h_noise = F_NOISE * max(1.0, float(np.sum(np.abs(ct))))
+            if pred <= noise and pred_h <= h_noise:
+                # Predicted changes of F and of the violation below their
+                # rounding levels: the ratios are noise. Such a final
+                # Newton-like step is accepted if neither F nor the violation
+                # gets worse beyond rounding.
                 ratio = 1.0
-                ok = ht <= h and Ft <= st.F + noise
+                ok = ht <= h + h_noise and Ft <= st.F + noise
             elif ftype:
                 ratio = (st.F - Ft) / pred
                 ok = ok and ratio >= FILTER_SIGMA

@@ -14,6 +14,7 @@ from plantopt.solver import Status, compile_nlp, solve_nlp
 @example(seed=26743403, n=3, m=0)  # last step's predicted decrease below rounding of f
 @example(seed=4, n=6, m=4)  # QP stopped by residuals alone, before complementarity
 @example(seed=28907, n=4, m=0)  # bound nearly active: polish must release it
+@example(seed=5350, n=4, m=2)  # last step raises the violation by round-off only
 def test_random_convex_problems_match_ipopt(seed, n, m):
     # strictly convex objective (unique minimiser), linear rows and a
     # curved convex row; feasible by construction (x = 0 satisfies all rows)
