@@ -24,13 +24,13 @@ def render_sweep_summary(result: Any, *, out: str | None = None, plot: str | Non
     sets = Counter(r.get("active_set") or "(none)" for r in result.rows if r.get("status") == "optimal")
     if sets:
         L.append("")
-        L.append("Active sets (points)")
-        for i, (s, c) in enumerate(sets.most_common(), start=1):
+        L.append("Active sets (points); letters as in the plot (order of first appearance)")
+        for i, (s, c) in enumerate(sets.items(), start=1):
             L.append(f"  {chr(64 + i) if i <= 26 else i}  {c:>5d}  {s.replace(';', ', ')}")
     if result.breakpoints:
         L.append("")
         L.append("Active-set breakpoints")
-        for b in result.breakpoints:
+        for b in sorted(result.breakpoints, key=lambda b: (b.path, sorted(b.fixed.items()), b.value)):
             fixed = "" if not b.fixed else " at " + ", ".join(f"{k} = {v:.6g}" for k, v in b.fixed.items())
             where = f"{b.path} = {b.value:.6g} {b.unit}".rstrip() + f" (+/- {abs(b.upper - b.lower) / 2:.2g})"
             L.append(f"  {where}{fixed} [{b.status}]")
@@ -42,7 +42,7 @@ def render_sweep_summary(result: Any, *, out: str | None = None, plot: str | Non
                 L.append(f"      released:       {', '.join(lost)}")
     L.append("")
     if out:
-        L.append(f"Table: {out}" + (f"; breakpoints: {breakpoints_path(out)}" if result.axes else ""))
+        L.append(f"Table: {out}" + (f"; breakpoints: {breakpoints_path(out)}" if result.bisected else ""))
     if plot:
         L.append(f"Plot: {plot}")
     L.append(SAFETY_NOTICE)

@@ -511,6 +511,7 @@ class SweepResult:
     solved: int = 0
     wall_time_s: float = 0.0
     profit_unit: str = ""
+    bisected: bool = False
     notice: str = SAFETY_NOTICE
 
     @property
@@ -912,7 +913,7 @@ def run_sweep(
         write_breakpoints(breakpoints_path(out), bps)
     return SweepResult(rows=[done[i] for i in sorted(done)], columns=columns, axes=axes, varied=varied,
                        breakpoints=bps, skipped=skipped, solved=solved, wall_time_s=time.perf_counter() - t0,
-                       profit_unit=fs.profit_unit)
+                       profit_unit=fs.profit_unit, bisected=bool(bisect and axes))
 
 
 def _full_record(pt: SweepPoint, rec: Mapping[str, Any], warm_src: int | None, scen: bool) -> dict[str, Any]:
