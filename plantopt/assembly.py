@@ -20,6 +20,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Any
 
 import casadi as ca
@@ -162,12 +163,11 @@ class Assembly:
 
     def row_scales(self, x: np.ndarray, fs: Flowsheet | None = None) -> np.ndarray:
         """Typical size of the terms of each constraint row at x: max_j |dg_i/dx_j| * nominal_j."""
-        if getattr(self, "_jac_fn", None) is None:
-            self._jac_fn = ca.Function("jac_g", [self.nlp["x"], self.nlp["p"]], [ca.jacobian(self.nlp["g"], self.nlp["x"])])
-        J = self._jac_fn(x, self.p_values(fs)).sparse().tocsr() if hasattr(ca.DM, "sparse") else None
         import scipy.sparse as sp
 
-        J = sp.csr_matrix(J) @ sp.diags(self.x_nominal())
+        # the compiled NLP's Jacobian: regenerating it here would double the derivative work
+        J = self.compiled.jac_g(np.asarray(x, dtype=float), self.p_values(fs)).tocsr()
+        J = J @ sp.diags(self.x_nominal())
         return np.asarray(abs(J).max(axis=1).todense()).ravel()
 
     def evaluate_report(self, x: np.ndarray, fs: Flowsheet | None = None) -> dict[str, float]:
@@ -211,6 +211,68 @@ def _stream_kinds(system: Any) -> dict[str, str]:
         for q, kind in STREAM_COMPONENT_QUANTITIES.items():
             k[f"{q}.{c}"] = kind
     return k
+
+
+def port_map(fs: Flowsheet) -> dict[str, dict[str, list[str]]]:
+    """``{unit: {port: [stream, ...]}}`` in port order, from one pass over the streams.
+
+    Built once per flowsheet so that no unit scans every stream (that scan
+    made assembly O(units x streams))."""
+    ends: dict[tuple[str, str], list[tuple[int, str]]] = {}
+    for s, st in fs.streams.items():
+        for end in (st.source, st.dest):
+            if end:
+                ends.setdefault((end[0], end[1]), []).append((end[2], s))
+    return {uid: {port.name: [s for _, s in sorted(ends.get((uid, port.name), []))] for port in model.ports()}
+            for uid, model in fs.units.items()}
+
+
+@lru_cache(maxsize=None)
+def _kind_of_si_unit(unit: str) -> str:
+    # pint parsing costs ~0.1 ms; thousands of units repeat a handful of unit texts
+    return U.kind_key(U.kind_for_si_unit(unit or "dimensionless"))
+
+
+@lru_cache(maxsize=None)
+def _kind_of_unit(unit: str) -> str:
+    return U.kind_key(U.resolve_kind(unit)) if unit else "dimensionless"
+
+
+def _column(exprs: list[Any]) -> Any:
+    return ca.vertcat(*[e if isinstance(e, ca.SX) else ca.SX(e) for e in exprs]) if exprs else ca.SX(0, 1)
+
+
+class _UnitForm:
+    """What one unit signature contributes, as one casadi Function of the unit's
+    local (z, p): residuals, specification expressions, outputs, heat duty, work.
+
+    Built once per signature and called on each unit's symbolic slices; the
+    call is evaluated in C++ and is far cheaper than re-running the unit
+    model's Python for every unit of a large site."""
+
+    def __init__(self, model: UnitModel, phases: dict[str, list[str]], spec_names: list[str], index: int):
+        local = model.symbols(phases)
+        zl, pl = model.flatten(local)
+        res = list(model.residuals(local))
+        specs = [model.spec_expression(sp, local) for sp in spec_names]
+        outs = dict(model.outputs(local))
+        for spec in (sp.name for sp in model.specs()):
+            if spec not in outs and "." not in spec:
+                try:
+                    outs[spec] = (model.spec_expression(spec, local), next(x.kind for x in model.specs() if x.name == spec))
+                except Exception:
+                    pass
+        for v in model.variables():
+            outs.setdefault(v.name, (local.x[v.name], v.unit or "dimensionless"))
+        self.n_res, self.n_spec = len(res), len(specs)
+        self.out_names = list(outs)
+        self.out_kinds = [_kind_of_unit(outs[q][1]) for q in self.out_names]
+        self.out_index = {q: i for i, q in enumerate(self.out_names)}
+        exprs = res + specs + [outs[q][0] for q in self.out_names] + [model.heat_duty(local), model.work(local)]
+        col = _column(exprs)
+        if col.shape[0] != len(exprs):
+            raise ValueError(f"{model.kind}: a residual, specification or output is not scalar")
+        self.fn = ca.Function(f"{model.kind}_{index}", [zl, pl], [col])
 
 
 def assemble(fs: Flowsheet) -> Assembly:
@@ -268,22 +330,24 @@ def assemble(fs: Flowsheet) -> Assembly:
     unit_var_index: dict[str, dict[str, int]] = {}
     unit_syms: dict[str, Symbols] = {}
     functions: dict[tuple, ca.Function] = {}
+    forms: dict[tuple, _UnitForm] = {}
+    # per unit: the Function's output column and the form (outputs by name)
+    unit_vals: dict[str, tuple[Any, _UnitForm]] = {}
+    pmap = port_map(fs)
 
     for uid, model in fs.units.items():
         # the unit's port streams, in port order
         port_streams: dict[str, Any] = {}
         phases: dict[str, list[str]] = {}
         for port in model.ports():
-            conn = [(st.source if port.direction == "out" else st.dest, s) for s, st in fs.streams.items()]
-            mine = sorted(((e[2], s) for e, s in conn if e and e[0] == uid and e[1] == port.name))
-            syms = [streams[s] for _, s in mine]
+            syms = [streams[s] for s in pmap[uid][port.name]]
             phases[port.name] = [s.phase for s in syms]
             port_streams[port.name] = syms if port.variadic else syms[0]
         xv = {}
         unit_var_index[uid] = {}
         for v in model.variables():
             unit_var_index[uid][v.name] = len(xs)
-            xv[v.name] = new_var(f"units.{uid}.{v.name}", U.kind_key(U.kind_for_si_unit(v.unit or "dimensionless")), v.lower, v.upper, v.nominal)
+            xv[v.name] = new_var(f"units.{uid}.{v.name}", _kind_of_si_unit(v.unit or "dimensionless"), v.lower, v.upper, v.nominal)
         pv = {}
         for prm in model.parameters():
             if prm.per_component:
@@ -293,53 +357,63 @@ def assemble(fs: Flowsheet) -> Assembly:
                 pv[prm.name] = p_sym[prm.address or f"units.{uid}.{prm.name}"]
         s = Symbols(port_streams, xv, pv)
         unit_syms[uid] = s
-        key = (model.signature(), tuple((k, tuple(v)) for k, v in sorted(phases.items())))
-        fn = functions.get(key)
-        if fn is None:
-            local = model.symbols(phases)
-            zl, pl = model.flatten(local)
-            res = model.residuals(local)
-            fn = ca.Function(f"{model.kind}_{len(functions)}", [zl, pl], [ca.vertcat(*res) if res else ca.SX(0, 1)])
-            functions[key] = fn
+        phase_key = tuple((k, tuple(v)) for k, v in sorted(phases.items()))
+        spec_items = list(fs.specs[uid].items())
+        key = (model.signature(), phase_key, tuple(sp for sp, _ in spec_items))
+        form = forms.get(key)
+        if form is None:
+            form = forms[key] = _UnitForm(model, phases, [sp for sp, _ in spec_items], len(forms))
+            functions[(model.signature(), phase_key)] = form.fn
         z, pz = model.flatten(s)
-        r = fn(z, pz)
+        r = form.fn(z, pz)
+        unit_vals[uid] = (r, form)
         names = model.residual_names()
-        for i in range(r.shape[0]):
+        for i in range(form.n_res):
             rows.append(Row(f"units.{uid}.{names[i] if i < len(names) else f'eq{i}'}", ROW_RESIDUAL, uid))
-            gs.append(r[i])
-        for spec, path in fs.specs[uid].items():
-            expr = model.spec_expression(spec, s)
+        if form.n_res:
+            gs.append(r[:form.n_res])
+        for spec, path in spec_items:
             spec_rows[path] = len(rows)
             rows.append(Row(path, ROW_SPEC, uid, fs.inputs[path].kind.name))
-            gs.append(expr)
+        if form.n_spec:
+            gs.append(r[form.n_res:form.n_res + form.n_spec])
 
     # reportable quantities and limits
     report_names: list[str] = []
     report_kinds: list[str] = []
     report_exprs: list[Any] = []
     skinds = _stream_kinds(system)
+    # one Function of (F, T, P) for every stream quantity, called on each stream
+    ls = StreamSym(ca.SX.sym("F", n), ca.SX.sym("T"), ca.SX.sym("P"), "liquid")
+    lq = _stream_quantities(system, ls)
+    q_names = list(lq)
+    q_index = {q: i for i, q in enumerate(q_names)}
+    q_fn = ca.Function("stream_quantities", [ls.F, ls.T, ls.P], [_column([lq[q] for q in q_names])])
+    stream_vals: dict[str, Any] = {}
     for sname, st in streams.items():
-        for q, e in _stream_quantities(system, st).items():
-            report_names.append(f"streams.{sname}.{q}")
-            report_kinds.append(skinds[q])
-            report_exprs.append(e)
-    unit_outputs: dict[str, dict[str, tuple[Any, str]]] = {}
-    for uid, model in fs.units.items():
-        s = unit_syms[uid]
-        outs = dict(model.outputs(s))
-        for spec in (sp.name for sp in model.specs()):
-            if spec not in outs and "." not in spec:
-                try:
-                    outs[spec] = (model.spec_expression(spec, s), next(x.kind for x in model.specs() if x.name == spec))
-                except Exception:
-                    pass
-        for v in model.variables():
-            outs.setdefault(v.name, (s.x[v.name], v.unit or "dimensionless"))
-        unit_outputs[uid] = outs
-        for q, (e, unit) in outs.items():
-            report_names.append(f"units.{uid}.{q}")
-            report_kinds.append(U.kind_key(U.resolve_kind(unit)) if unit else "dimensionless")
-            report_exprs.append(e)
+        v = stream_vals[sname] = q_fn(st.F, st.T, st.P)
+        report_names.extend(f"streams.{sname}.{q}" for q in q_names)
+        report_kinds.extend(skinds[q] for q in q_names)
+        report_exprs.append(v)
+    for uid in fs.units:
+        r, form = unit_vals[uid]
+        k0 = form.n_res + form.n_spec
+        report_names.extend(f"units.{uid}.{q}" for q in form.out_names)
+        report_kinds.extend(form.out_kinds)
+        if form.out_names:
+            report_exprs.append(r[k0:k0 + len(form.out_names)])
+
+    def unit_output(uid: str, q: str) -> Any:
+        r, form = unit_vals[uid]
+        return r[form.n_res + form.n_spec + form.out_index[q]]
+
+    def unit_duty(uid: str) -> Any:
+        r, form = unit_vals[uid]
+        return r[r.shape[0] - 2]
+
+    def unit_work(uid: str) -> Any:
+        r, form = unit_vals[uid]
+        return r[r.shape[0] - 1]
 
     def quantity_expr(address: str) -> Any:
         if "+" in address:  # a sum of addresses (checked by the loader to share one kind)
@@ -349,8 +423,8 @@ def assemble(fs: Flowsheet) -> Assembly:
             return total
         parts = address.split(".")
         if parts[0] == "streams":
-            return _stream_quantities(system, streams[parts[1]])[".".join(parts[2:])]
-        return unit_outputs[parts[1]][parts[2]][0]
+            return stream_vals[parts[1]][q_index[".".join(parts[2:])]]
+        return unit_output(parts[1], parts[2])
 
     limit_rows: dict[str, int] = {}
     for lim in fs.limits:
@@ -367,12 +441,16 @@ def assemble(fs: Flowsheet) -> Assembly:
         flow = ca.dot(mw, F) if iv.kind.name == "price_per_mass" else ca.sum1(F)
         return p_sym[price_path] * flow
 
+    # first stream (in stream order) leaving / entering each unit
+    first_end: dict[tuple[str, str], str] = {}
+    for sname, st in fs.streams.items():
+        if st.source:
+            first_end.setdefault((st.source[0], "out"), sname)
+        if st.dest:
+            first_end.setdefault((st.dest[0], "in"), sname)
+
     def port_F(uid: str, direction: str) -> Any:
-        for sname, st in fs.streams.items():
-            end = st.source if direction == "out" else st.dest
-            if end and end[0] == uid:
-                return streams[sname].F
-        raise KeyError(uid)
+        return streams[first_end[(uid, direction)]].F
 
     for uid, path in fs.product_prices.items():
         terms.append((f"revenue.{uid}", amount(path, port_F(uid, "in"))))
@@ -387,12 +465,11 @@ def assemble(fs: Flowsheet) -> Assembly:
         if ut is None or ut not in fs.utilities:
             continue
         info = fs.utilities[ut]
-        s = unit_syms[uid]
         if info.type == "electricity":
-            load = model.work(s)
+            load = unit_work(uid)
             sign = +1
         else:
-            q = model.heat_duty(s)
+            q = unit_duty(uid)
             # heating utilities deliver heat (Q >= 0); cooling water removes it
             sign = -1 if info.type == "cooling_water" else +1
             load = q if sign > 0 else -q
@@ -404,13 +481,11 @@ def assemble(fs: Flowsheet) -> Assembly:
         direction_rows[name] = len(rows)
         direction_sign[name] = sign
         rows.append(Row(name, ROW_DIRECTION, uid, "power"))
-        gs.append(model.work(s) if info.type == "electricity" else model.heat_duty(s))
+        gs.append(unit_work(uid) if info.type == "electricity" else unit_duty(uid))
     for path in fs.fixed_costs:
         terms.append((f"fixed.{path.split('.')[-1]}", -p_sym[path]))
 
-    profit = ca.SX(0)
-    for _, e in terms:
-        profit = profit + e
+    profit = ca.sum1(_column([e for _, e in terms])) if terms else ca.SX(0)
     breakdown_names = [t[0] for t in terms]
     for name, e in terms:
         report_names.append(f"profit.{name}")
@@ -421,18 +496,31 @@ def assemble(fs: Flowsheet) -> Assembly:
     report_exprs.append(profit)
 
     # overall balances of the plant boundary: feeds in, products out, heat and work added
-    mass_in = mass_out = h_in = h_out = heat = work = ca.SX(0)
+    h_fns: dict[str, ca.Function] = {}
+
+    def enthalpy_flow(sym: StreamSym) -> Any:
+        fn = h_fns.get(sym.phase)
+        if fn is None:
+            Fs, Ts = ca.SX.sym("F", n), ca.SX.sym("T")
+            fn = h_fns[sym.phase] = ca.Function("enthalpy_flow", [Fs, Ts], [system.enthalpy_flow(Fs, Ts, sym.phase)])
+        return fn(sym.F, sym.T)
+
+    m_in, m_out, hl_in, hl_out = [], [], [], []
     for sname, st in fs.streams.items():
         sym = streams[sname]
         if st.source and fs.unit_types[st.source[0]] == "feed":
-            mass_in += ca.dot(mw, sym.F)
-            h_in += system.enthalpy_flow(sym.F, sym.T, sym.phase)
+            m_in.append(ca.dot(mw, sym.F))
+            hl_in.append(enthalpy_flow(sym))
         if st.dest and fs.unit_types[st.dest[0]] == "product":
-            mass_out += ca.dot(mw, sym.F)
-            h_out += system.enthalpy_flow(sym.F, sym.T, sym.phase)
-    for uid, model in fs.units.items():
-        heat += model.heat_duty(unit_syms[uid])
-        work += model.work(unit_syms[uid])
+            m_out.append(ca.dot(mw, sym.F))
+            hl_out.append(enthalpy_flow(sym))
+
+    def total(exprs: list[Any]) -> Any:
+        return ca.sum1(_column(exprs)) if exprs else ca.SX(0)
+
+    mass_in, mass_out, h_in, h_out = total(m_in), total(m_out), total(hl_in), total(hl_out)
+    heat = total([unit_duty(uid) for uid in fs.units])
+    work = total([unit_work(uid) for uid in fs.units])
     for name, e, kind in (("mass_in", mass_in, "mass_flow"), ("mass_out", mass_out, "mass_flow"),
                           ("enthalpy_in", h_in, "power"), ("enthalpy_out", h_out, "power"),
                           ("heat_added", heat, "power"), ("work_added", work, "power")):
@@ -442,13 +530,14 @@ def assemble(fs: Flowsheet) -> Assembly:
 
     x = ca.vertcat(*xs)
     p = ca.vertcat(*[p_sym[q] for q in p_paths]) if p_paths else ca.SX(0, 1)
-    g = ca.vertcat(*gs) if gs else ca.SX(0, 1)
+    g = _column(gs)
     nlp = {"x": x, "f": -profit, "g": g, "p": p}
-    report = ca.Function("report", [x, p], [ca.vertcat(*report_exprs)])
+    report = ca.Function("report", [x, p], [_column(report_exprs)])
     asm = Assembly(fs, nlp, slots, rows, p_paths, stream_index, unit_var_index, spec_rows, limit_rows,
                    direction_rows, report, report_names, report_kinds, breakdown_names)
     asm._direction_sign = direction_sign  # type: ignore[attr-defined]
     asm._unit_functions = functions
     asm._streams = streams  # type: ignore[attr-defined]
     asm._unit_syms = unit_syms  # type: ignore[attr-defined]
+    asm._port_map = pmap  # type: ignore[attr-defined]
     return asm

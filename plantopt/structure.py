@@ -59,13 +59,13 @@ class StructureReport:
 def check_structure(asm: Assembly) -> StructureReport:
     """Match equations to variables on the Jacobian pattern of the square system."""
     eq = [i for i, r in enumerate(asm.rows) if r.type in (ROW_RESIDUAL, ROW_SPEC)]
-    g = asm.nlp["g"]
-    geq = ca.vertcat(*[g[i] for i in eq]) if eq else ca.SX(0, 1)
-    J = ca.jacobian(geq, asm.nlp["x"])
-    spj = J.sparsity()
-    rows, cols = spj.get_triplet()
     m, n = len(eq), asm.nlp["x"].shape[0]
-    A = sp.csr_matrix((np.ones(len(rows)), (np.array(rows, dtype=int), np.array(cols, dtype=int))), shape=(m, n))
+    # only the pattern is needed: sparsity propagation is linear in the graph,
+    # whereas building the Jacobian itself costs a colouring and AD sweeps
+    spj = ca.jacobian_sparsity(asm.nlp["g"], asm.nlp["x"])
+    rows, cols = spj.get_triplet()
+    A = sp.csr_matrix((np.ones(len(rows)), (np.array(rows, dtype=int), np.array(cols, dtype=int))),
+                      shape=(len(asm.rows), n))[np.array(eq, dtype=int)] if m else sp.csr_matrix((0, n))
     match_rows = maximum_bipartite_matching(A, perm_type="column") if m and n else np.full(m, -1)
     matched_cols = set(int(c) for c in match_rows if c >= 0)
     un_eq = [asm.rows[eq[i]].name for i in range(m) if match_rows[i] < 0]
