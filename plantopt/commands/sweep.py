@@ -36,10 +36,9 @@ def run(args: argparse.Namespace) -> int:
     from plantopt.studies import sweep as S
 
     sets = parse_sets(args.set)
-    if args.out and not args.out.lower().endswith((".csv", ".parquet")):
-        raise InputError("<command line>", "--out", f"expected a .csv or .parquet file name, got {args.out!r}")
-    if args.plot and not args.plot.lower().endswith((".png", ".svg", ".pdf")):
-        raise InputError("<command line>", "--plot", f"expected a .png, .svg or .pdf file name, got {args.plot!r}")
+    S.check_output_path(args.out, "--out", (".csv", ".parquet"))
+    if args.plot:
+        S.check_output_path(args.plot, "--plot", (".png", ".svg", ".pdf"))
     if args.bisect_tol is not None and not (0 < args.bisect_tol < 1):
         raise InputError("<command line>", "--bisect-tol", f"expected a fraction between 0 and 1, got {args.bisect_tol}")
     fs = load_flowsheet(args.flowsheet)

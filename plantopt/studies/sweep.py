@@ -652,6 +652,19 @@ def read_rows(path: str | Path, varied: Sequence[str]) -> tuple[list[str], list[
     return cols, rows
 
 
+def check_output_path(path: str | Path, option: str, suffixes: Sequence[str]) -> None:
+    """Refuse an output name with the wrong suffix or in a missing folder
+    before any work is done (an hour-long sweep must not fail at its first write)."""
+    p = Path(path)
+    if p.suffix.lower() not in suffixes:
+        raise InputError(CLI, option, f"expected a file name ending in {' or '.join(suffixes)}, got {str(path)!r}")
+    folder = p.parent if str(p.parent) else Path(".")
+    if not folder.is_dir():
+        raise InputError(CLI, option, f"folder {str(folder)!r} does not exist")
+    if p.is_dir():
+        raise InputError(CLI, option, f"{str(path)!r} is a folder; expected a file name")
+
+
 def _state_path(out: str | Path) -> Path:
     p = Path(out)
     return p.with_name(p.name + ".state.json")
@@ -797,7 +810,14 @@ def run_sweep(
             p.warm_parent = None
     # every point's values are checked before any solve: bad input fails fast (exit 2)
     for pt in points:
-        apply_overrides(base_fs, pt.overrides)
+        try:
+            apply_overrides(base_fs, pt.overrides)
+        except InputError as exc:
+            if scenarios is None:
+                raise
+            raise InputError(str(scenarios), f"line {pt.index + 2}.{exc.path}", exc.problem) from None
+    if out is not None:
+        check_output_path(out, "--out", (".csv", ".parquet"))
     columns = columns_for(fs, varied, with_label=scenarios is not None)
     fp = _fingerprint(fs, axes, points, base, solver, warm, chain_length)
 

@@ -168,6 +168,9 @@ def test_scenarios_csv_and_parquet(demo, tmp_path):
     bad.write_text(f"{C3}\n0.9\nlots\n")
     with pytest.raises(InputError, match=r"bad.csv: line 3"):
         run_sweep(fs, scenarios=bad, assembly=asm)
+    bad.write_text("units.PURGE_SPLIT.fraction.S_PURGE\n0.2\n1.7\n")
+    with pytest.raises(InputError, match=r"bad.csv: line 3.units.PURGE_SPLIT.fraction.S_PURGE: expected a fraction between 0 and 1, got 1.7"):
+        run_sweep(fs, scenarios=bad, assembly=asm)
 
 
 def test_point_without_optimum_records_its_status(demo):
@@ -208,3 +211,13 @@ def test_cli_bad_vary_exits_2(tmp_path, capsys):
     rc = main(["sweep", str(DEMO), "--vary", "nonsense", "--out", str(tmp_path / "x.csv")])
     assert rc == 2
     assert "--vary" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("out, expect", [("missing/x.csv", "does not exist"), ("x.xlsx", ".csv or .parquet")])
+def test_cli_bad_output_exits_2_before_solving(tmp_path, capsys, out, expect):
+    from plantopt.cli import main
+
+    rc = main(["sweep", str(DEMO), "--vary", f"{C3}=0.8:0.9:2", "--out", str(tmp_path / out)])
+    assert rc == 2
+    err = capsys.readouterr().err
+    assert "--out" in err and expect in err
