@@ -394,8 +394,9 @@ def loads_flowsheet(raw: bytes | str, fname: str = "<string>", *, max_bytes: int
     except ValueError as exc:  # an integer longer than Python converts (sys.int_info)
         why = "an integer with more than 4300 digits" if "digits" in str(exc) else str(exc)
         raise InputErrors([InputError(fname, "", f"not valid TOML: {why}")]) from None
-    if _depth(data) > MAX_DEPTH:
-        raise InputErrors([InputError(fname, "", f"tables or lists nested more than {MAX_DEPTH} deep; a flowsheet needs at most 5")])
+    deep = _too_deep(data)
+    if deep is not None:
+        raise InputErrors([InputError(fname, deep, f"tables or lists nested more than {MAX_DEPTH} deep; a flowsheet needs at most 5")])
     try:
         doc = FlowsheetFile.model_validate(data)
     except ValidationError as exc:
@@ -407,15 +408,22 @@ MAX_DEPTH = 12
 """Deepest nesting of tables and lists accepted (the deepest real key, e.g. ``economics.utilities.X.price``, is 4)."""
 
 
-def _depth(obj: Any, level: int = 0) -> int:
-    """Nesting depth of parsed TOML, stopping once it exceeds :data:`MAX_DEPTH`."""
+def _too_deep(obj: Any, path: tuple[str, ...] = (), level: int = 0) -> str | None:
+    """Address (table keys only) of a value nested deeper than :data:`MAX_DEPTH`, or None."""
     if level > MAX_DEPTH:
-        return level
+        return ".".join(path) or "<top level>"
     if isinstance(obj, dict):
-        return max((_depth(v, level + 1) for v in obj.values()), default=level + 1)
-    if isinstance(obj, list):
-        return max((_depth(v, level + 1) for v in obj), default=level + 1)
-    return level
+        items = [(path + (str(k),), v) for k, v in obj.items()]
+    elif isinstance(obj, list):
+        items = [(path, v) for v in obj]  # list positions add depth, not names
+    else:
+        return None
+    for sub, v in items:
+        if isinstance(v, (dict, list)):
+            found = _too_deep(v, sub, level + 1)
+            if found is not None:
+                return found
+    return None
 
 
 def _toml_context(exc: Exception, text: str) -> str:
@@ -500,6 +508,7 @@ class _Builder:
         self.doc = doc
         self.errors: list[InputError] = []
         self.inputs: dict[str, InputValue] = {}
+        self.failed_components: set[str] = set()
 
     def err(self, path: str, problem: str) -> None:
         self.errors.append(InputError(self.f, path, problem))
@@ -539,12 +548,26 @@ class _Builder:
         comps = []
         for cid, c in self.doc.components.items():
             base = f"components.{cid}"
+            n_errors = len(self.errors)
+            self._component(cid, c, base, comps, Component)
+            if len(self.errors) > n_errors:
+                # its own error is reported; references to it elsewhere are not errors too
+                self.failed_components.add(cid)
+        if not comps:
+            if not self.doc.components:
+                self.err("components", "no components given")
+            return None
+        return ComponentSystem(comps)
+
+    def _component(self, cid: str, c: Any, base: str, comps: list, Component: Any) -> None:
+        """Build one component into ``comps`` or record why it cannot be built."""
+        if True:  # (body kept at its original indentation)
             try:
                 if c.source:
                     extra = [k for k in ("molar_mass", "formation_enthalpy", "cp_gas", "cp_liquid", "liquid_density", "vaporisation_enthalpy", "antoine") if getattr(c, k) is not None]
                     if extra:
                         self.err(f"{base}.{extra[0]}", "give either 'source' (property data by name or CAS) or user-defined data, not both")
-                        continue
+                        return
                     comp = _component_from_name(c.source)
                     comps.append(replace(comp, name=cid))
                 else:
@@ -557,12 +580,18 @@ class _Builder:
                             self.err(f"{base}.{key}", "missing (a user-defined component needs it; or give 'source')")
                             continue
                         q = self.quantity(v, kind, f"{base}.{key}")
-                        if q is not None:
-                            vals[key] = U.to_si(q, kind)
+                        if q is None:
+                            continue
+                        si = U.to_si(q, kind)
+                        if key != "formation_enthalpy" and si <= 0:
+                            # masses, densities, heat capacities and latent heats are positive by nature
+                            self.err(f"{base}.{key}", f"expected a positive value, got {v!r}")
+                            continue
+                        vals[key] = si
                     if c.antoine is None:
                         self.err(f"{base}.antoine", "missing (a user-defined component needs Antoine a, b, c for log10(P/Pa) = a - b/(T/K + c))")
                     if len(vals) < len(need) or c.antoine is None:
-                        continue
+                        return
                     comps.append(Component.from_data(
                         name=cid, molar_mass=vals["molar_mass"], formation_enthalpy=vals["formation_enthalpy"],
                         cp_gas=vals["cp_gas"], cp_liquid=vals["cp_liquid"], antoine_a=c.antoine.a, antoine_b=c.antoine.b,
@@ -572,11 +601,6 @@ class _Builder:
                 # UnitConfigError carries the bare problem; its str() repeats a field name
                 msg = getattr(exc, "problem", None) or (exc.args[0] if exc.args else str(exc))
                 self.err(f"{base}.source" if c.source else base, f"unknown component or incomplete property data: {msg}")
-        if not comps:
-            if not self.doc.components:
-                self.err("components", "no components given")
-            return None
-        return ComponentSystem(comps)
 
     def reactions(self, system):
         from unitmodels.kinetics import Reaction
@@ -587,7 +611,9 @@ class _Builder:
             bad = False
             for table in ("stoichiometry", "orders", "reverse_orders"):
                 for comp in (getattr(r, table) or {}):
-                    if system is not None and comp not in system.names:
+                    if comp in self.failed_components:
+                        bad = True  # the component's own error is the one to fix
+                    elif system is not None and comp not in system.names:
                         self.err(f"{base}.{table}.{comp}", f"unknown component (known: {', '.join(system.names)})")
                         bad = True
             if bad or system is None:
@@ -635,7 +661,7 @@ class _Builder:
                 continue
             n_errors = len(self.errors)
             model = self._unit(uid, table, system, reactions, models, types, streams, specs, split_index)
-            if model is None and len(self.errors) > n_errors:
+            if model is None:
                 for v in table.values():
                     for name in (v if isinstance(v, list) else [v]):
                         if isinstance(name, str):
@@ -731,7 +757,8 @@ class _Builder:
                         if rn not in reactions:
                             if rn not in self.doc.reactions:
                                 self.err(f"{base}.reactions", f"unknown reaction {rn!r} (known: {', '.join(self.doc.reactions) or 'none'})")
-                            continue
+                                continue
+                            return None  # the reaction's own error is reported; this unit cannot be built without it
                         rx_list.append(reactions[rn])
             if system is None or len(connections) < len(probe_ports):
                 return None
@@ -777,11 +804,14 @@ class _Builder:
                     if not isinstance(v, dict):
                         self.err(path, f"expected a table keyed by component ({', '.join(system.names)})")
                         continue
+                    ok_sum = True
                     for comp in v:
-                        if comp not in system.names:
+                        if comp in self.failed_components:
+                            ok_sum = False  # its fraction is not counted; the sum would mislead
+                        elif comp not in system.names:
                             self.err(f"{path}.{comp}", f"unknown component (known: {', '.join(system.names)})")
                     total = 0.0
-                    ok = True
+                    ok = ok_sum
                     for comp in system.names:
                         iv = self.add_input(f"{path}.{comp}", v.get(comp, prm.default if prm.default is not None else 0.0),
                                             prm.kind, prm.category, WHERE_PARAM, prm.lower, prm.upper)

@@ -22,7 +22,14 @@ from __future__ import annotations
 import math
 from typing import Annotated, Any, Literal, Optional, Union
 
-from pydantic import AfterValidator, BaseModel, ConfigDict, Field
+from pydantic import AfterValidator, BaseModel, BeforeValidator, ConfigDict, Field
+
+
+def _not_boolean(v: Any) -> Any:
+    # pydantic would read true as 1; a boolean coefficient is always a slip
+    if isinstance(v, bool):
+        raise ValueError(f"expected a number, got the boolean {str(v).lower()}")
+    return v
 
 
 def _finite_number(v: float | int) -> float | int:
@@ -36,11 +43,19 @@ def _finite_number(v: float | int) -> float | int:
         raise ValueError(f"expected a number of ordinary size, got an integer with {len(str(abs(v)))} digits")
     if isinstance(v, float) and not math.isfinite(v):
         raise ValueError(f"expected a finite number, got {v}")
+    if abs(v) > 1e15:
+        raise ValueError(f"expected a number of ordinary size, got {v:g}")
     return v
 
 
-Number = Annotated[Union[float, int], AfterValidator(_finite_number)]
-QuantityText = Union[str, float, int]
+Number = Annotated[Union[float, int], BeforeValidator(_not_boolean), AfterValidator(_finite_number)]
+def _not_boolean_quantity(v: Any) -> Any:
+    if isinstance(v, bool):
+        raise ValueError(f"expected a quantity such as '1.5 <unit>' (or a number where no unit is needed), got the boolean {str(v).lower()}")
+    return v
+
+
+QuantityText = Annotated[Union[str, float, int], BeforeValidator(_not_boolean_quantity)]
 
 
 class _Strict(BaseModel):
