@@ -105,8 +105,43 @@ def sensitivity(
     ws = result.warm_start
     if result.status != "optimal" or not ws or ws.get("x") is None:
         raise InputError(source, "--sensitivity", f"needs an optimal result (status is {result.status})")
-    x = np.asarray(ws["x"], dtype=float)
-    lam = np.asarray(ws["lam_g"], dtype=float)
+    kd = kkt_derivatives(fs, fs2, asm, np.asarray(ws["x"], dtype=float), np.asarray(ws["lam_g"], dtype=float),
+                         ws.get("lam_x"), inputs)
+    J, cond, regular, act_rows, decs = kd["J"], kd["cond"], kd["regular"], kd["act_rows"], kd["decs"]
+    pf = profit_factor(fs)
+    entries = []
+    for q in inputs:
+        iv = fs2.inputs[q]
+        dx, jp_col, dprofit_si = kd["dx"][q], kd["jp"][q], kd["dprofit"][q]
+        qsize = unit_size_si(iv.kind.name, iv.unit)
+        dd, du = {}, {}
+        for d in fs.decisions:
+            i = asm.spec_rows[d.input]
+            dv_si = float(J[i, :] @ dx + jp_col[i])
+            dk = fs.inputs[d.input].kind.name
+            dd[d.name] = dv_si / unit_size_si(dk, d.unit) * qsize
+            du[d.name] = f"{d.unit or '1'} per {iv.unit or '1'}"
+        entries.append(SensitivityEntry(
+            input=q, unit=iv.unit, value=iv.display(),
+            d_profit=dprofit_si * pf * qsize, d_profit_unit=f"{fs.profit_unit} per {iv.unit or '1'}",
+            d_decisions=dd, d_decisions_units=du))
+    return Sensitivity(method=METHOD, entries=entries, active_rows=[asm.rows[i].name for i in act_rows
+                                                                     if asm.rows[i].type != "residual" and
+                                                                     not (asm.rows[i].type == ROW_SPEC and asm.rows[i].name not in decs)],
+                       kkt_condition=cond, regular=regular,
+                       note="" if regular else "KKT matrix near singular (degenerate active set): least-squares derivatives, treat with care")
+
+
+def kkt_derivatives(fs: Flowsheet, fs2: Flowsheet, asm: Assembly, x: np.ndarray, lam: np.ndarray,
+                    lam_x: Any, inputs: Sequence[str]) -> dict[str, Any]:
+    """SI derivatives at an optimum ``(x, lam)`` of ``fs2`` (``fs`` with its overrides).
+
+    Returns a dict with, per input address, ``dx`` (dx/dq), ``dlam``
+    (d lam_g/dq on the active rows), ``jp`` (dg/dq at fixed x) and ``dprofit``
+    (USD/s per SI unit), and ``J``, ``cond``, ``regular``, ``act_rows``, ``decs``.
+    """
+    x = np.asarray(x, dtype=float)
+    lam = np.asarray(lam, dtype=float)
     p = asm.p_values(fs2)
     lbg, ubg = asm.g_bounds("optimize", fs2)
     lbx, ubx = asm.x_bounds()
@@ -117,7 +152,7 @@ def sensitivity(
     def at(v, b):
         return np.isfinite(b) & (np.abs(v - b) <= ACTIVE_REL_TOL * np.maximum(1.0, np.abs(b)))
 
-    lam_x = np.asarray(ws.get("lam_x") or np.zeros(len(x)), dtype=float)
+    lam_x = np.asarray(lam_x if lam_x is not None else np.zeros(len(x)), dtype=float)
     # a row's own scale (its Jacobian norm per nominal step of x) sets what
     # "at its bound" means: a heater duty of 4e-5 W against a 0 W bound is
     # active although 4e-5 exceeds an absolute 1e-6
@@ -187,8 +222,8 @@ def sensitivity(
     for d in fs.decisions:
         bound_rows[d.lower_path] = bound_rows[d.upper_path] = asm.spec_rows[d.input]
 
-    pf = profit_factor(fs)
-    entries = []
+    out = {"dx": {}, "dlam": {}, "jp": {}, "dprofit": {}}
+    solve = (lambda r: np.linalg.solve(K, r)) if regular else (lambda r: np.linalg.lstsq(K, r, rcond=None)[0])
     for q in inputs:
         iv = fs2.inputs[q]
         rhs = np.zeros(n + m + k)
@@ -211,22 +246,12 @@ def sensitivity(
             if moves and i in row_pos:
                 rhs[n + row_pos[i]] = 1.0 / rs[row_pos[i]]  # d(g_i - b_i)/db_i = -1, moved to the right side
                 dprofit_si = float(lam[i])
-        sol = np.linalg.lstsq(K, rhs, rcond=None)[0] if not regular else np.linalg.solve(K, rhs)
-        dx = sol[:n] * D
-        qsize = unit_size_si(iv.kind.name, iv.unit)
-        dd, du = {}, {}
-        for d in fs.decisions:
-            i = asm.spec_rows[d.input]
-            dv_si = float(J[i, :] @ dx + jp_col[i])
-            dk = fs.inputs[d.input].kind.name
-            dd[d.name] = dv_si / unit_size_si(dk, d.unit) * qsize
-            du[d.name] = f"{d.unit or '1'} per {iv.unit or '1'}"
-        entries.append(SensitivityEntry(
-            input=q, unit=iv.unit, value=iv.display(),
-            d_profit=dprofit_si * pf * qsize, d_profit_unit=f"{fs.profit_unit} per {iv.unit or '1'}",
-            d_decisions=dd, d_decisions_units=du))
-    return Sensitivity(method=METHOD, entries=entries, active_rows=[asm.rows[i].name for i in act_rows
-                                                                     if asm.rows[i].type != "residual" and
-                                                                     not (asm.rows[i].type == ROW_SPEC and asm.rows[i].name not in decs)],
-                       kkt_condition=cond, regular=regular,
-                       note="" if regular else "KKT matrix near singular (degenerate active set): least-squares derivatives, treat with care")
+        sol = solve(rhs)
+        out["dx"][q] = sol[:n] * D
+        dl = np.zeros(len(g))
+        dl[act_rows] = sol[n:n + m] / rs
+        out["dlam"][q] = dl
+        out["jp"][q] = jp_col
+        out["dprofit"][q] = dprofit_si
+    out.update(J=J, cond=cond, regular=regular, act_rows=act_rows, decs=decs)
+    return out
