@@ -31,16 +31,16 @@ def main(argv: Sequence[str] | None = None) -> int:
     from plantopt.studies.sweep import executor_for, run_sweep
 
     fs = load_flowsheet(args.flowsheet)
-    runs = [("cold", 1, False)] + [("warm", w, True) for w in args.workers]
+    runs = [("cold", 1, False, False)] + [("warm", w, True, False) for w in args.workers] + [("warm+predict", 1, True, True)]
     table = []
     ref = None
-    for label, w, warm in runs:
+    for label, w, warm, predict in runs:
         t = time.perf_counter()
         with executor_for(w) as ex:
-            r = run_sweep(fs, vary=[args.vary], solver=args.solver, executor=ex, warm=warm, bisect=False)
+            r = run_sweep(fs, vary=[args.vary], solver=args.solver, executor=ex, warm=warm, bisect=False, predict=predict)
         wall = time.perf_counter() - t
         same = ""
-        if warm:
+        if warm and not predict:
             key = [(row["status"], row.get("objective"), row.get("active_set")) for row in r.rows]
             same = "reference" if ref is None else ("identical" if key == ref else "DIFFERENT")
             ref = ref or key
@@ -48,10 +48,10 @@ def main(argv: Sequence[str] | None = None) -> int:
     cold_it, cold_t = table[0][2], table[0][5]
     one_t = next((row[5] for row in table if row[0] == "warm" and row[1] == 1), None)
     print(f"Sweep benchmark: {args.vary} on {Path(args.flowsheet).name} (solver {args.solver})")
-    print(f"{'run':<6}{'workers':>8}{'iterations':>12}{'optimal':>10}{'wall s':>9}{'iter/cold':>11}{'speed-up':>10}  results")
+    print(f"{'run':<13}{'workers':>8}{'iterations':>12}{'optimal':>10}{'wall s':>9}{'iter/cold':>11}{'speed-up':>10}  results")
     for label, w, it, nopt, n, wall, same in table:
         sp = f"{one_t / wall:.2f}" if (label == "warm" and one_t) else "-"
-        print(f"{label:<6}{w:>8}{it:>12}{f'{nopt}/{n}':>10}{wall:>9.1f}{it / max(cold_it, 1):>11.2f}{sp:>10}  {same}")
+        print(f"{label:<13}{w:>8}{it:>12}{f'{nopt}/{n}':>10}{wall:>9.1f}{it / max(cold_it, 1):>11.2f}{sp:>10}  {same}")
     warm_it = table[1][2]
     print(f"target: warm <= 0.5 x cold iterations: {'met' if warm_it <= 0.5 * cold_it else 'NOT met'} "
           f"({warm_it} vs {cold_it}); warm wall time {table[1][5] / cold_t:.2f} x cold")

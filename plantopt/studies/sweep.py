@@ -297,6 +297,7 @@ class _Task:
     solver: str
     options: dict | None
     warm: dict | None
+    predict_from: dict[str, str] | None = None  # overrides of the point ``warm`` solved
 
 
 _POOL: dict[str, list] = {}
@@ -366,8 +367,10 @@ def _solve_locked(task: _Task) -> tuple[RunResult | None, str]:
     try:
         ov = dict(task.base_overrides)
         ov.update(task.overrides)
-        res = optimize(fs, assembly=asm, overrides=ov, solver=task.solver,
-                       warm_from=warm_dict(task.warm), options=task.options)
+        warm = warm_dict(task.warm)
+        if warm is not None and task.predict_from is not None:
+            warm = _predict(fs, asm, warm, {**task.base_overrides, **task.predict_from}, ov)
+        res = optimize(fs, assembly=asm, overrides=ov, solver=task.solver, warm_from=warm, options=task.options)
         return res, res.status
     except PlantoptError as exc:
         return None, f"error: {exc}"
@@ -376,6 +379,32 @@ def _solve_locked(task: _Task) -> tuple[RunResult | None, str]:
         return None, f"error: {type(exc).__name__}: {exc}"
     finally:
         _release(key, (fs, asm))
+
+
+def _predict(fs: Flowsheet, asm: Any, warm: dict, parent_ov: Mapping[str, str], ov: Mapping[str, str]) -> dict:
+    """First-order predictor: move the neighbour's solution along its KKT
+    sensitivity to this point's inputs (x + dx/dq dq, lam + dlam/dq dq), the
+    active set held; the solver then corrects. Falls back to the plain warm
+    start where the KKT system cannot be used."""
+    from plantopt.studies.sensitivity import kkt_derivatives
+    from plantopt.studies.simulate import apply_overrides
+
+    try:
+        fs_p, fs_c = apply_overrides(fs, dict(parent_ov)), apply_overrides(fs, dict(ov))
+        steps = {q: fs_c.inputs[q].si - fs_p.inputs[q].si for q in ov if fs_c.inputs[q].si != fs_p.inputs[q].si}
+        if not steps:
+            return warm
+        kd = kkt_derivatives(fs, fs_p, asm, warm["x"], warm["lam_g"], warm.get("lam_x"), list(steps))
+        if not kd["regular"]:
+            return warm
+        x = warm["x"] + sum(kd["dx"][q] * dq for q, dq in steps.items())
+        lbx, ubx = asm.x_bounds()
+        out = dict(warm)
+        out["x"] = np.clip(x, lbx, ubx)
+        out["lam_g"] = warm["lam_g"] + sum(kd["dlam"][q] * dq for q, dq in steps.items())
+        return out
+    except (InputError, ArithmeticError, ValueError, np.linalg.LinAlgError):
+        return warm
 
 
 def active_set(res: RunResult) -> tuple[str, ...]:
@@ -706,10 +735,10 @@ class _Inline(cf.Executor):
 
 
 def _fingerprint(fs: Flowsheet, axes: Sequence[Axis], points: Sequence[SweepPoint], base: Mapping[str, str],
-                 solver: str, warm: bool, chain_length: int | None) -> str:
+                 solver: str, warm: bool, chain_length: int | None, predict: bool = False) -> str:
     h = hashlib.sha256()
     h.update(json.dumps({"flowsheet": fs.sha256, "inputs": _fs_key(fs), "solver": solver, "warm": warm,
-                         "chain": chain_length, "base": dict(sorted(base.items())),
+                         "chain": chain_length, "predict": predict, "base": dict(sorted(base.items())),
                          "axes": [[a.path, a.unit, list(a.values)] for a in axes],
                          "points": [p.overrides for p in points] if not axes else None}, sort_keys=True).encode())
     return h.hexdigest()
@@ -729,6 +758,7 @@ def run_sweep(
     chain_length: int | None = DEFAULT_CHAIN_LENGTH,
     bisect: bool = True,
     bisect_tol: float = DEFAULT_BISECT_TOL,
+    predict: bool = False,
     assembly: Any = None,
     progress: Callable[[int, int, Mapping[str, Any]], None] | None = None,
     max_in_flight: int | None = None,
@@ -762,6 +792,9 @@ def run_sweep(
         Locate active-set breakpoints between grid neighbours.
     bisect_tol : float
         Breakpoint tolerance as a fraction of the grid step.
+    predict : bool
+        Move each warm start along the neighbour's KKT sensitivity first
+        (a first-order predictor, see :mod:`plantopt.studies.sensitivity`).
     assembly : Assembly, optional
         A built assembly of ``fs`` to reuse in this process.
     progress : callable, optional
@@ -819,7 +852,7 @@ def run_sweep(
     if out is not None:
         check_output_path(out, "--out", (".csv", ".parquet"))
     columns = columns_for(fs, varied, with_label=scenarios is not None)
-    fp = _fingerprint(fs, axes, points, base, solver, warm, chain_length)
+    fp = _fingerprint(fs, axes, points, base, solver, warm, chain_length, predict)
 
     done: dict[int, dict[str, Any]] = {}
     warms: dict[int, dict | None] = {}
@@ -895,7 +928,8 @@ def run_sweep(
                     continue
                 submitted.add(pt.index)
                 w, src_i = warm_for(pt)
-                task = _Task(base_fs, {}, pt.overrides, solver, options, w)
+                task = _Task(base_fs, {}, pt.overrides, solver, options, w,
+                             points[src_i].overrides if (predict and w is not None and src_i is not None) else None)
                 pending_futs[ex.submit(_run_point, task)] = (pt, src_i)
             finished, _ = cf.wait(list(pending_futs), return_when=cf.FIRST_COMPLETED)
             for fut in sorted(finished, key=lambda f: pending_futs[f][0].index):

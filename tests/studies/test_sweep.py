@@ -221,3 +221,15 @@ def test_cli_bad_output_exits_2_before_solving(tmp_path, capsys, out, expect):
     assert rc == 2
     err = capsys.readouterr().err
     assert "--out" in err and expect in err
+
+
+def test_predictor_reaches_the_same_optima(demo):
+    """The first-order (KKT) predictor changes only the start: the optima and
+    active sets are those of the plain warm-started sweep (default SQP)."""
+    fs, asm = demo
+    kw = dict(vary=[f"{C3}=0.85:0.95:3"], assembly=asm, bisect=False)
+    plain, pred = run_sweep(fs, **kw).rows, run_sweep(fs, predict=True, **kw).rows
+    assert [r["status"] for r in pred] == ["optimal"] * 3
+    for a, b in zip(plain, pred):
+        assert b["objective"] == pytest.approx(a["objective"], rel=1e-8)
+        assert b["active_set"] == a["active_set"]
