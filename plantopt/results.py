@@ -196,7 +196,7 @@ class Sensitivity(_Model):
     method: str
     entries: list[SensitivityEntry] = Field(default_factory=list)
     active_rows: list[str] = Field(default_factory=list)
-    kkt_condition: float = 0.0
+    kkt_condition: Optional[float] = None  # 2-norm condition number of the scaled KKT matrix; None if infinite
     regular: bool = True
     note: str = ""
 

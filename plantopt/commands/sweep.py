@@ -23,6 +23,8 @@ def add_parser(sub) -> None:
     s.add_argument("--cold", action="store_true", help="solve every point from a cold start (no continuation)")
     s.add_argument("--chain-length", type=int, default=None, metavar="N",
                    help="cold restart every N points along an axis (default 10; 0: never)")
+    s.add_argument("--predict", action="store_true",
+                   help="move each warm start along the neighbour's KKT sensitivity before solving")
     s.add_argument("--no-bisect", action="store_true", help="do not locate active-set breakpoints")
     s.add_argument("--bisect-tol", type=float, default=None, metavar="FRACTION",
                    help="breakpoint tolerance as a fraction of the grid step (default 1e-3)")
@@ -44,7 +46,7 @@ def run(args: argparse.Namespace) -> int:
     fs = load_flowsheet(args.flowsheet)
     chain = S.DEFAULT_CHAIN_LENGTH if args.chain_length is None else (args.chain_length or None)
     kw = dict(vary=args.vary, scenarios=args.scenarios, overrides=sets, solver=args.solver, out=args.out,
-              warm=not args.cold, chain_length=chain, bisect=not args.no_bisect,
+              warm=not args.cold, chain_length=chain, predict=args.predict, bisect=not args.no_bisect,
               bisect_tol=args.bisect_tol if args.bisect_tol is not None else S.DEFAULT_BISECT_TOL)
     with S.executor_for(args.workers, args.cluster) as ex:
         if args.quiet:

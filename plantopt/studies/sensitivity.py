@@ -128,7 +128,7 @@ def sensitivity(
     return Sensitivity(method=METHOD, entries=entries, active_rows=[asm.rows[i].name for i in act_rows
                                                                      if asm.rows[i].type != "residual" and
                                                                      not (asm.rows[i].type == ROW_SPEC and asm.rows[i].name not in decs)],
-                       kkt_condition=cond, regular=regular,
+                       kkt_condition=cond if np.isfinite(cond) else None, regular=regular,
                        note="" if regular else "KKT matrix near singular (degenerate active set): least-squares derivatives, treat with care")
 
 
