@@ -558,8 +558,6 @@ class SweepResult:
 def columns_for(fs: Flowsheet, varied: Sequence[str], with_label: bool = False) -> list[str]:
     """The fixed column layout of a sweep of ``fs``: known before any solve, so
     every row (failed ones too) has the same columns."""
-    from plantopt.studies.core import DEFAULT_DISPLAY  # noqa: F401  (display units live there)
-
     pu = fs.profit_unit
     cols = ["point"] + (["scenario"] if with_label else []) + list(varied)
     cols += ["status", "objective", "iterations", "warm_from", "neighbour", "active_set_changed", "active_set"]
