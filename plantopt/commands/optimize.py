@@ -16,8 +16,8 @@ def add_parser(sub) -> None:
     o.add_argument("--json", metavar="FILE", help="write the result as JSON")
     o.add_argument("--quiet", action="store_true", help="print only the status line")
     o.add_argument("--verbose", action="store_true", help="print the solver's iteration log")
-    o.add_argument("--sensitivity", action="append", nargs="?", const="", metavar="PATH",
-                   help="derivatives of optimal profit and decisions w.r.t. every price (and PATH, repeatable) from the KKT system")
+    o.add_argument("--sensitivity", action="extend", nargs="*", metavar="PATH",
+                   help="derivatives of optimal profit and decisions w.r.t. every price (and each PATH) from the KKT system")
 
 
 def run(args: argparse.Namespace) -> int:

@@ -113,7 +113,7 @@ def test_unknown_input_and_non_optimal_result_refused(demo, sens):
 def test_cli_optimize_sensitivity(capsys):
     from plantopt.cli import main
 
-    rc = main(["optimize", str(DEMO), "--solver", "ipopt", "--sensitivity", "--sensitivity", "units.REACTOR.volume"])
+    rc = main(["optimize", str(DEMO), "--solver", "ipopt", "--sensitivity", "units.REACTOR.volume", "economics.products.CRUDE"])
     out = capsys.readouterr().out
     assert rc == 0
     assert "Sensitivity of the optimum" in out and "units.REACTOR.volume" in out and "economics.feeds.FEED_BZ" in out
