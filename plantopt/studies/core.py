@@ -139,7 +139,14 @@ def build_result(
             margins.append(("upper", hi - val_si))
         side, m_si = min(margins, key=lambda t: t[1])
         tol = ACTIVE_TOL * scale
-        active = optimizing and abs(m_si) <= tol
+        # an interior-point optimum sits a little off its bounds: a limit with
+        # a clearly nonzero multiplier of the right sign and a small margin is
+        # active too (the multiplier, not the margin, decides at a breakpoint)
+        lam = float(lam_g[i])
+        right_sign = (lam < 0) if side == "lower" else (lam > 0)
+        f_scale = max(1.0, abs(float(res.f)))
+        binding = right_sign and abs(lam) * scale > 1e-6 * f_scale and m_si <= 1e-4 * scale
+        active = optimizing and (abs(m_si) <= tol or binding)
         lr = LimitResult(
             name=lim.name, kind=lim.kind, quantity=lim.quantity, value=to_display(val_si, k, unit),
             lower=to_display(lo, k, unit) if lo is not None else None,
@@ -164,9 +171,12 @@ def build_result(
         scale = max(1.0, abs(lo), abs(hi))
         at = None
         if optimizing:
-            if val_si - lo <= ACTIVE_TOL * scale:
+            lam = float(lam_g[i])
+            f_scale = max(1.0, abs(float(res.f)))
+            significant = abs(lam) * scale > 1e-6 * f_scale
+            if val_si - lo <= ACTIVE_TOL * scale or (lam < 0 and significant and val_si - lo <= 1e-4 * scale):
                 at = "lower"
-            elif hi - val_si <= ACTIVE_TOL * scale:
+            elif hi - val_si <= ACTIVE_TOL * scale or (lam > 0 and significant and hi - val_si <= 1e-4 * scale):
                 at = "upper"
         delta = val_si - iv.si
         if abs(delta) <= 1e-9 * max(1.0, abs(iv.si)):

@@ -126,8 +126,10 @@ def optimize(
     opts = {"solver": solver, "x_nominal": asm.x_nominal()}
     opts.update(options or {})
     ws = None
-    if warm is not None and solver == "sqp":
-        ws = {k: v for k, v in warm.items() if k in ("lam_g", "lam_x", "radius")}
+    if warm is not None:
+        ws = {k: v for k, v in warm.items() if k in ("lam_g", "lam_x", "radius") and v is not None}
+        if "lam_g" in ws and "lam_x" not in ws:
+            ws["lam_x"] = np.zeros(len(asm.slots))
         ws["x"] = x0
     try:
         res = solve_nlp(asm.compiled, x0, lbx, ubx, lbg, ubg, p=asm.p_values(fs2), options=opts, warm_start=ws)
