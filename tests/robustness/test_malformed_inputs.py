@@ -420,7 +420,7 @@ def test_bad_set_values_are_refused_with_the_address(data, capsys, tally):
     elif how == "fraction" and iv.kind.name == "fraction":
         value, fragment = "1.5", "between 0 and 1"
     else:
-        value, fragment = "1e40", ""
+        value, fragment = "1e70", ""  # absurd, or outside a fraction's range
     with tempfile.TemporaryDirectory() as d:
         out = Path(d) / "keep.json"
         out.write_text('{"old": true}')
