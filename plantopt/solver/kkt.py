@@ -126,3 +126,64 @@ def near_active(v: np.ndarray, lo: np.ndarray, hi: np.ndarray, tol: float) -> np
     eq = np.isfinite(lo) & (lo == hi)
     act[eq & (act == 0)] = -1
     return act
+
+
+def sign_multipliers(
+    grad: np.ndarray, J: sp.spmatrix, cl: np.ndarray, cu: np.ndarray, xl: np.ndarray, xu: np.ndarray,
+    act_r: np.ndarray, act_b: np.ndarray, eps: float = 1e-12,
+) -> tuple[np.ndarray, np.ndarray] | None:
+    """Multipliers minimising the stationarity residual under the sign conditions.
+
+    Solves the convex QP ::
+
+        min 1/2 ||r||^2   s.t.   r - M'lam = grad,   lam_i <= 0 (active lower),
+                                                     lam_i >= 0 (active upper)
+
+    with ``M`` the active rows of ``J`` and the identity rows of the active
+    bounds (equality rows and fixed variables unrestricted). At a point
+    with dependent active constraints (e.g. a component flow fixed at zero
+    both by its balance and by its bound) the multipliers are not unique,
+    and those of an interior-point QP or of unconstrained least squares can
+    carry a wrong sign although a sign-consistent set exists; this QP finds
+    it when it exists (``r = 0``). Solved with piqp (sparse: the Hessian
+    is the identity on ``r``).
+
+    Returns
+    -------
+    (y, yx) or None
+        Casadi-sign multipliers, or None when piqp fails.
+    """
+    import piqp
+
+    n, m = grad.size, J.shape[0]
+    rows, bnds = np.flatnonzero(act_r), np.flatnonzero(act_b)
+    k = rows.size + bnds.size
+    if k == 0:
+        return np.zeros(m), np.zeros(n)
+    J = sp.csr_matrix(J)
+    E = sp.csr_matrix((np.ones(bnds.size), (np.arange(bnds.size), bnds)), shape=(bnds.size, n))
+    M = sp.vstack([J[rows], E], format="csr")
+    sign = np.concatenate([act_r[rows], act_b[bnds]])
+    free = np.concatenate([cl[rows] == cu[rows], xl[bnds] == xu[bnds]])
+    lo = np.where(~free & (sign > 0), 0.0, -np.inf)
+    hi = np.where(~free & (sign < 0), 0.0, np.inf)
+    P = sp.block_diag([sp.identity(n), eps * sp.identity(k)], format="csc")
+    Aeq = sp.hstack([sp.identity(n, format="csr"), -M.T], format="csc")
+    solver = piqp.SparseSolver()
+    s = solver.settings
+    s.verbose = False
+    s.eps_abs = s.eps_rel = 1e-12
+    s.max_iter = 200
+    solver.setup(P, np.zeros(n + k), Aeq, np.asarray(grad, float), None, None, None,
+                 np.concatenate([np.full(n, -np.inf), lo]), np.concatenate([np.full(n, np.inf), hi]))
+    st = solver.solve()
+    if st not in (piqp.PIQP_SOLVED, piqp.PIQP_MAX_ITER_REACHED):
+        return None
+    lam = np.array(solver.result.x, dtype=float)[n:]
+    if not np.isfinite(lam).all():
+        return None
+    # clip the interior-point round-off into the sign cone
+    lam = np.clip(lam, lo, hi)
+    y, yx = np.zeros(m), np.zeros(n)
+    y[rows], yx[bnds] = lam[: rows.size], lam[rows.size:]
+    return y, yx

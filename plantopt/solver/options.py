@@ -93,6 +93,12 @@ DELTA_MAX = 1e20
 DENSE_INERTIA_MAX = 500
 #: quasi-definite lower-right block -EPS_QD I of the KKT matrix
 EPS_QD = 1e-10
+#: stable null-space curvature test H + delta I + rho A'A > 0 (Finsler's lemma; Nocedal & Wright,
+#: Numerical Optimization, 2nd ed. 2006, Thm. 17.5 / sec. 17.3): rho max_j ||A e_j||^2 equals
+#: FINSLER_RATIO max(1, max|H|). Our choice, measured on the methanol loop flowsheet at its start
+#: point: ratios 6e6 and 6e8 found the smallest correct shift (1.7e-9), 6e4 over-shifted (1e-6),
+#: 6e10 lost accuracy to rounding and misjudged PD. A too small ratio only over-shifts (safe).
+FINSLER_RATIO = 1e7
 
 DEFAULTS: dict[str, Any] = {
     "solver": "sqp",

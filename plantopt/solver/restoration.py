@@ -82,3 +82,68 @@ def elastic_qp(
     model_h = float(np.sum(np.maximum(np.maximum(cl - lin, lin - cu), 0.0)))
     pred = h - model_h - 0.5 * float(d @ (H @ d))
     return ElasticStep("solved", d, res.y, model_h, pred)
+
+
+def extend_step(
+    d: np.ndarray, Jd: np.ndarray, c: np.ndarray, cl: np.ndarray, cu: np.ndarray,
+    lb: np.ndarray, ub: np.ndarray, curv: float, h: float, grow: float = 2.0,
+) -> tuple[float, float]:
+    """Longest useful multiple ``t >= 1`` of a restoration step along its direction.
+
+    The curvature shift ``delta I`` that makes the elastic QP convex limits
+    its step to about ``|grad h| / delta`` however large the trust region:
+    measured on an infeasible flowsheet (a product contract above what the
+    plant can make), every restoration step stayed ``~1e-2`` long inside a
+    radius of 10 with the ratio ``~2`` (the violation behaved linearly), and
+    200 iterations went by. The l1 model with the unshifted curvature ::
+
+        m(t) = sum_i viol_i(c + t J d) + 1/2 t^2 d'H d
+
+    is evaluated at ``t = 1, grow, grow^2, ...`` up to the largest ``t``
+    keeping ``t d`` inside ``[lb, ub]`` (the trust region and the bounds),
+    and the ``t`` of the smallest model value is returned with its
+    predicted reduction ``h - m(t)``. Only the direction of the QP is used,
+    so the trust-region ratio test judges the longer step as any other
+    (a dogleg-like search on the model, cf. Conn, Gould & Toint,
+    Trust-Region Methods, 2000, sec. 6.3: any step with at least the
+    Cauchy decrease is admissible).
+
+    Parameters
+    ----------
+    d : ndarray, shape (n,)
+        Step of the elastic QP.
+    Jd : ndarray, shape (m,)
+        ``J @ d``.
+    c, cl, cu : ndarray, shape (m,)
+    lb, ub : ndarray, shape (n,)
+        Step bounds (trust region intersected with the variable bounds).
+    curv : float
+        ``d' H d`` with the unshifted curvature ``H``.
+    h : float
+        Current l1 violation.
+
+    Returns
+    -------
+    (t, pred) : (float, float)
+    """
+    with np.errstate(divide="ignore", invalid="ignore"):
+        tu = np.where(d > 0, ub / d, np.inf)
+        tl = np.where(d < 0, lb / d, np.inf)
+    t_max = float(min(np.min(tu, initial=np.inf), np.min(tl, initial=np.inf)))
+    if not np.isfinite(t_max):
+        t_max = 1.0
+
+    def model(t: float) -> float:
+        lin = c + t * Jd
+        return float(np.sum(np.maximum(np.maximum(cl - lin, lin - cu), 0.0))) + 0.5 * t * t * curv
+
+    best_t, best_m = 1.0, model(1.0)
+    t = 1.0
+    while t < t_max:
+        t = min(t * grow, t_max)
+        mt = model(t)
+        if mt < best_m:
+            best_t, best_m = t, mt
+        elif mt > best_m:
+            break  # m is piecewise convex-quadratic along t beyond its minimum... stop at the first rise
+    return best_t, h - best_m

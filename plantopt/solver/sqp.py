@@ -36,7 +36,7 @@ from plantopt.solver.options import (
 )
 from plantopt.solver.problem import ScaledProblem, scale_csc
 from plantopt.solver.qp import QPResult, solve_qp
-from plantopt.solver.restoration import elastic_qp
+from plantopt.solver.restoration import elastic_qp, extend_step
 from plantopt.solver.result import NLPResult
 from plantopt.solver.scaling import make_scaling, variable_scale
 from plantopt.solver.status import Status
@@ -103,7 +103,32 @@ def _finish(prob: ScaledProblem, st: _State, tol: float) -> tuple[np.ndarray, np
     m_qp = kktmod.measures(st.grad, st.J, c, prob.cl, prob.cu, z, prob.zl, prob.zu, st.y, st.yx)
     if max(m_qp.values()) < max(m_ls.values()):
         y, yx, m_ls = st.y, st.yx, m_qp
+    if max(m_ls.values()) >= tol and m_ls["feasibility"] < tol:
+        alt = _sign_consistent(prob, st, act_r, act_b)
+        if alt is not None and max(alt[2].values()) < max(m_ls.values()):
+            y, yx, m_ls = alt
     return y, yx, m_ls, max(m_ls.values()) < tol
+
+
+def _sign_consistent(prob: ScaledProblem, st: _State, act_r: np.ndarray | None,
+                     act_b: np.ndarray | None) -> tuple[np.ndarray, np.ndarray, dict] | None:
+    """Sign-constrained least-squares multipliers (:func:`kkt.sign_multipliers`) and their measures.
+
+    The active set is the union of ``act_r``/``act_b`` and the constraints
+    within ``_ACTIVE_TOL`` of a bound at ``st``.
+    """
+    ar = kktmod.near_active(st.c, prob.cl, prob.cu, _ACTIVE_TOL)
+    ab = kktmod.near_active(st.z, prob.zl, prob.zu, _ACTIVE_TOL)
+    if act_r is not None:
+        ar = np.where(ar == 0, act_r, ar)
+    if act_b is not None:
+        ab = np.where(ab == 0, act_b, ab)
+    out = kktmod.sign_multipliers(st.grad, st.J, prob.cl, prob.cu, prob.zl, prob.zu, ar, ab)
+    if out is None:
+        return None
+    y, yx = out
+    meas = kktmod.measures(st.grad, st.J, st.c, prob.cl, prob.cu, st.z, prob.zl, prob.zu, y, yx)
+    return y, yx, meas
 
 
 def sqp_solve(
@@ -246,6 +271,15 @@ def sqp_solve(
             continue
         meas = kktmod.measures(st.grad, st.J, st.c, prob.cl, prob.cu, st.z, prob.zl, prob.zu, qp.y, qp.yx)
         opt = max(meas["stationarity"], meas["complementarity"])
+        if (max(meas.values()) >= tol and meas["feasibility"] < tol
+                and -qp.obj <= tol * max(1.0, abs(st.F))):
+            # The model predicts no decrease at a feasible point, but the QP's
+            # multipliers fail the test: with dependent active constraints
+            # they are not unique. Look for sign-consistent ones.
+            alt = _sign_consistent(prob, st, qp.active_rows, qp.active_bounds)
+            if alt is not None and max(alt[2].values()) < max(meas.values()):
+                qp.y, qp.yx, meas = alt
+                opt = max(meas["stationarity"], meas["complementarity"])
         if max(meas.values()) < tol:
             st.y, st.yx, st.act_r, st.act_b = qp.y, qp.yx, qp.active_rows, qp.active_bounds
             record("optimal", np.nan, opt, True)
@@ -367,13 +401,34 @@ def _restore(
         Hc = prob.hessian(st.z, 0.0, yr)
         if Hc is None:
             return st, rad, it, Status.FAILED, "Hessian not finite in restoration"
-        delta = regularise(Hc, sp.csc_matrix((0, n)), delta_last)
-        delta_last = delta
-        Hcr = (Hc + delta * sp.identity(n)).tocsc()
         lb, ub = np.maximum(prob.zl - st.z, -rad), np.minimum(prob.zu - st.z, rad)
-        es = elastic_qp(Hcr, st.J, st.c, prob.cl, prob.cu, lb, ub, h)
+        # Curvature is needed only on the null space of the rows expected to
+        # stay satisfied (their elastic variables at zero: satisfied equality
+        # rows and active inequality rows) and of the active bounds, as in the
+        # main iteration. Convexifying on the whole space (delta ~ 26 on the
+        # infeasible flowsheet demo) shortened every step to ~1e-3.
+        viol = np.maximum(np.maximum(prob.cl - st.c, st.c - prob.cu), 0.0)
+        near = kktmod.near_active(st.c, prob.cl, prob.cu, _ACTIVE_TOL)
+        sat = np.flatnonzero((near != 0) & (viol <= tol))
+        act_b = kktmod.near_active(st.z, prob.zl, prob.zu, _ACTIVE_TOL)
+        es = None
+        for A_curv in (_active_matrix(st.J, sat, act_b, n), sp.csc_matrix((0, n))):
+            delta = regularise(Hc, A_curv, delta_last if A_curv.shape[0] == 0 else 0.0)
+            Hcr = (Hc + delta * sp.identity(n)).tocsc()
+            es = elastic_qp(Hcr, st.J, st.c, prob.cl, prob.cu, lb, ub, h)
+            if es.status == "solved":
+                break
+        delta_last = delta
         if es.status != "solved":
             return st, rad, it, Status.FAILED, "elastic QP failed in restoration"
+        # lengthen the step along its direction when the convexifying shift,
+        # not the trust region, limited it (restoration.extend_step)
+        if delta > 0 and es.status == "solved":
+            Jd = st.J @ es.d
+            t_ext, pred_ext = extend_step(es.d, Jd, st.c, prob.cl, prob.cu, lb, ub,
+                                          float(es.d @ (Hc @ es.d)), h)
+            if t_ext > 1.0 and pred_ext > es.pred:
+                es.d, es.pred = t_ext * es.d, pred_ext
         dn = float(np.max(np.abs(es.d), initial=0.0))
         if es.pred <= tol * max(1.0, h):
             record("restoration", np.nan, np.nan, False, it, rad)
