@@ -540,3 +540,30 @@ def test_valid_variant_runs_through_the_cli(tmp_path, capsys, tally):
     p.write_text(M.dumps(doc))
     assert main(["inputs", str(p)]) == 0, capsys.readouterr().err
     tally("valid")
+
+
+EDIT_TEXT = st.sampled_from(list('=[]{}".,-+_*/#\n ') + ["nan", "inf", "true", "1e400", "[[", "]]", "\\", "'", "é", "x_y"])
+
+
+@settings(CASES, max_examples=40)
+@given(data=st.data())
+def test_random_text_edits_never_crash(data, capsys, tally):
+    """Characters deleted, inserted or copied anywhere: the file is read (exit 0) or refused (exit 2), nothing else."""
+    fname = pick(data, FILES, "file")
+    text = M.BASE_FILES[fname].read_text(encoding="utf-8")
+    for _ in range(data.draw(st.integers(1, 3), label="edits")):
+        i = data.draw(st.integers(0, len(text) - 1), label="at")
+        op = data.draw(st.sampled_from(["delete", "insert", "copy"]), label="op")
+        if op == "delete":
+            text = text[:i] + text[i + data.draw(st.integers(1, 5), label="n"):]
+        elif op == "insert":
+            text = text[:i] + data.draw(EDIT_TEXT, label="text") + text[i:]
+        else:
+            j = data.draw(st.integers(0, len(text) - 1), label="from")
+            text = text[:i] + text[j:j + data.draw(st.integers(1, 30), label="n")] + text[i:]
+    code, _, err = run_file(capsys, fname, text, "inputs")
+    tally("random edits")
+    assert code in (0, 2), err
+    assert "Traceback" not in err
+    if code == 2:
+        assert all(ln.startswith((f"{fname}: ", "/")) or ln.endswith("found:") for ln in problems(err) if ln), err

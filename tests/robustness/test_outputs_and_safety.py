@@ -196,3 +196,27 @@ def test_flowsheet_name_never_becomes_a_file_name(name, tmp_path, capsys, monkey
     assert after - before == {out}
     assert json.loads(out.read_text())["flowsheet_name"] == name
     assert outside.exists() == existed
+
+
+def test_sigterm_during_a_solve_keeps_the_old_result(tmp_path):
+    """SIGTERM while the optimizer iterates: exit 143, the earlier result file untouched, no temporary file."""
+    import signal
+    import subprocess
+    import sys
+
+    out = tmp_path / "result.json"
+    out.write_text('{"old": true}\n')
+    proc = subprocess.Popen([sys.executable, "-u", "-m", "plantopt.cli", "optimize", str(M.BASE_FILES["demo.toml"]),
+                             "--verbose", "--json", str(out)], stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    try:
+        header = proc.stdout.readline()  # printed by the solver: the handler is installed and work is under way
+        assert header.startswith("iter"), header + proc.stderr.read()
+        proc.send_signal(signal.SIGTERM)
+        _, err = proc.communicate(timeout=120)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+    assert proc.returncode == 143, err
+    assert "Traceback" not in err
+    assert out.read_text() == '{"old": true}\n'
+    assert leftovers(tmp_path) == []
