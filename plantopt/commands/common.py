@@ -74,3 +74,51 @@ def check_input_file(path: str | None, option: str) -> None:
     from plantopt.flowsheet import read_input_bytes
 
     read_input_bytes(path, what=f"a file for {option}")
+
+
+def check_warm_start_file(path: str | None, option: str = "--from") -> None:
+    """An earlier result used as a warm start is readable, within the size limit, and has the right shape.
+
+    Only the shape is checked here (numbers where numbers belong, names where
+    names belong); matching its variables to the flowsheet is the warm
+    start's own business. A hand-edited or truncated file is refused with
+    the field named instead of failing inside the solver set-up.
+
+    Raises
+    ------
+    InputErrors
+    """
+    if not path:
+        return
+    import json
+    import math
+
+    from plantopt.flowsheet import describe_value, read_input_bytes
+
+    raw = read_input_bytes(path, what=f"a result JSON for {option}")
+    try:
+        data = json.loads(raw.decode("utf-8"))
+    except (UnicodeDecodeError, json.JSONDecodeError, RecursionError) as exc:
+        raise InputErrors([InputError(str(path), "", f"not a readable result JSON ({exc})")]) from None
+    ws = data.get("warm_start") if isinstance(data, dict) else None
+    if not isinstance(ws, dict):
+        raise InputErrors([InputError(str(path), "warm_start", "missing: the file is not a result written by 'plantopt optimize --json'")])
+    errors = []
+
+    def number(v) -> bool:
+        return v is None or (isinstance(v, (int, float)) and not isinstance(v, bool) and not math.isnan(float(v)))
+
+    for key, kind, required in (("x", "numbers", True), ("x_paths", "names", True), ("lam_g", "numbers", False),
+                                ("lam_x", "numbers", False), ("g_names", "names", False)):
+        v = ws.get(key)
+        if v is None and not required:
+            continue
+        ok = isinstance(v, list) and all(number(e) if kind == "numbers" else isinstance(e, str) for e in v)
+        if not ok:
+            errors.append(InputError(str(path), f"warm_start.{key}", f"expected a list of {kind}, got {describe_value(v)}"))
+    if isinstance(ws.get("x"), list) and isinstance(ws.get("x_paths"), list) and len(ws["x"]) != len(ws["x_paths"]):
+        errors.append(InputError(str(path), "warm_start.x", f"has {len(ws['x'])} values for {len(ws['x_paths'])} names in x_paths"))
+    if ws.get("radius") is not None and not (number(ws["radius"]) and float(ws["radius"]) > 0):
+        errors.append(InputError(str(path), "warm_start.radius", f"expected a positive number, got {describe_value(ws['radius'])}"))
+    if errors:
+        raise InputErrors(errors)

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import argparse
 
-from plantopt.commands.common import EXIT_NOT_SOLVED, EXIT_OK, check_input_file, check_outputs, parse_sets
+from plantopt.commands.common import EXIT_NOT_SOLVED, EXIT_OK, check_outputs, check_warm_start_file, parse_sets
 
 
 def add_parser(sub) -> None:
@@ -28,7 +28,7 @@ def run(args: argparse.Namespace) -> int:
 
     sets = parse_sets(args.set)
     check_outputs((args.json, "--json"))
-    check_input_file(args.from_result, "--from")
+    check_warm_start_file(args.from_result, "--from")
     fs = load_flowsheet(args.flowsheet)
     fs.with_overrides(sets)  # every --set checked, alone and together, before any solve
     result = optimize(fs, overrides=sets, solver=args.solver, warm_from=args.from_result,

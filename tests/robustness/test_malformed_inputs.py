@@ -567,3 +567,48 @@ def test_random_text_edits_never_crash(data, capsys, tally):
     assert "Traceback" not in err
     if code == 2:
         assert all(ln.startswith((f"{fname}: ", "/")) or ln.endswith("found:") for ln in problems(err) if ln), err
+
+
+WARM_OK = {"warm_start": {"x": [1.0, 2.0], "x_paths": ["streams.S1.T", "streams.S1.P"], "lam_g": [0.0], "g_names": ["r"],
+                          "lam_x": [0.0, 0.0], "radius": 10.0}}
+
+
+@settings(CASES, max_examples=25)
+@given(data=st.data())
+def test_malformed_warm_start_file_is_refused_with_the_field(data, tally):
+    """``optimize --from``: a hand-edited result is checked for shape before any solve."""
+    from plantopt.commands.common import check_warm_start_file
+
+    doc = copy.deepcopy(WARM_OK)
+    key = pick(data, ["x", "x_paths", "lam_g", "lam_x", "g_names", "radius"], "key")
+    bad = pick(data, ["big", [1, "a"], {"a": 1}, True, -1.0, [None, "x"], [[1.0]]], "value")
+    if key in ("x_paths", "g_names") and bad == [[1.0]]:
+        bad = [1.0]
+    if key == "radius" and isinstance(bad, list):
+        bad = "big"
+    doc["warm_start"][key] = bad
+    if key != "radius" and isinstance(bad, (int, float)) and not isinstance(bad, bool):
+        bad = "big"
+        doc["warm_start"][key] = bad
+    with tempfile.TemporaryDirectory() as d:
+        p = Path(d) / "earlier.json"
+        p.write_text(__import__("json").dumps(doc))
+        with pytest.raises(InputErrors) as e:
+            check_warm_start_file(str(p))
+    tally("malformed")
+    assert any(err.path == f"warm_start.{key}" and err.file == str(p) for err in e.value.errors), str(e.value)
+
+
+def test_warm_start_file_of_the_right_shape_is_accepted(tmp_path, capsys, tally):
+    from plantopt.commands.common import check_warm_start_file
+
+    p = tmp_path / "earlier.json"
+    p.write_text(__import__("json").dumps(WARM_OK))
+    check_warm_start_file(str(p))
+    tally("valid")
+    for text in ("not json", "[1, 2]", '{"warm_start": 3}'):
+        p.write_text(text)
+        assert main(["optimize", str(M.BASE_FILES["demo.toml"]), "--from", str(p)]) == 2
+        err = capsys.readouterr().err
+        assert "earlier.json: " in err and "Traceback" not in err
+        tally("malformed")
