@@ -18,7 +18,9 @@ import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
-from plantopt.solver.inertia import kkt_matrix
+import qdldl
+
+from plantopt.solver.inertia import kkt_matrix, kkt_upper
 
 
 def measures(
@@ -57,6 +59,26 @@ def _ls_solve(M: sp.csc_matrix, grad: np.ndarray) -> np.ndarray | None:
     rhs = np.concatenate([-grad, np.zeros(k)])
     I = sp.identity(n, format="csc")
     K0 = kkt_matrix(I, M, 0.0, 0.0)
+    # Fast path: [[I, M'], [M, -eps I]] is quasi-definite, so qdldl's
+    # unpivoted LDL' is stable for any ordering (Vanderbei, SIAM J. Optim. 5,
+    # 1995); iterative refinement against the unregularised K0 removes the
+    # eps bias where M has full row rank. SuperLU (below) was 40% of the
+    # solve time on the methanol loop flowsheet (two factorisations per call
+    # when M is rank deficient).
+    eps_qd = 1e-10
+    try:
+        fac = qdldl.Solver(kkt_upper(I, M, 0.0, eps_qd), upper=True)
+        sol = fac.solve(rhs)
+        scale = max(1.0, float(np.max(np.abs(rhs), initial=0.0)))
+        for _ in range(10):
+            res = rhs - K0 @ sol
+            if np.max(np.abs(res), initial=0.0) <= 1e-13 * scale:
+                break
+            sol = sol + fac.solve(res)
+        if np.isfinite(sol).all():
+            return sol[n:]
+    except (ValueError, RuntimeError):
+        pass
     for eps in (0.0, 1e-12):
         K = kkt_matrix(I, M, 0.0, eps) if eps else K0
         try:

@@ -153,7 +153,14 @@ def polish(
     act_r, act_b = act_r.copy(), act_b.copy()
     ineq = l != u
     free = lb != ub
+    seen: set[bytes] = set()
     for _ in range(rounds):
+        key = act_r.tobytes() + act_b.tobytes()
+        if key in seen:
+            # the corrections cycle: the remaining rounds would repeat the
+            # same (deterministic) solves and fail the same way
+            return None
+        seen.add(key)
         rows = np.flatnonzero(act_r)
         bnds = np.flatnonzero(act_b)
         E = sp.csr_matrix((np.ones(bnds.size), (np.arange(bnds.size), bnds)), shape=(bnds.size, n))
