@@ -311,7 +311,8 @@ class Flowsheet:
             lo, hi, base = new.inputs[d.lower_path], new.inputs[d.upper_path], new.inputs[d.input]
             if lo.si > hi.si:
                 errors.append(InputError(source, f"decisions.{d.name}", f"lower {lo.display():g} {lo.unit} is above upper {hi.display():g} {hi.unit}"))
-            elif not lo.si - 1e-12 * abs(lo.si) <= base.si <= hi.si + 1e-12 * abs(hi.si):
+            # 1e-8 relative: a solver's optimum on a bound may sit that far past it
+            elif not lo.si - 1e-8 * max(abs(lo.si), 1.0) <= base.si <= hi.si + 1e-8 * max(abs(hi.si), 1.0):
                 errors.append(InputError(source, d.input, f"the base value {base.display():g} {base.unit} lies outside the range "
                                                           f"of decisions.{d.name} [{lo.display():g}, {hi.display():g}] {lo.unit}"))
         for lim in new.limits:

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import argparse
 
-from plantopt.commands.common import EXIT_NOT_SOLVED, EXIT_OK
+from plantopt.commands.common import check_outputs, EXIT_NOT_SOLVED, EXIT_OK
 
 
 def add_parser(sub) -> None:
@@ -26,6 +26,7 @@ def run(args: argparse.Namespace) -> int:
     from plantopt.reports.review_text import render_review
     from plantopt.studies.review import DEFAULT_NEAR, DEFAULT_STEPS, review_files
 
+    check_outputs((args.json, "--json"), (args.html, "--html"))
     _, result = review_files(args.flowsheet, args.proposed, args.current,
                              near=DEFAULT_NEAR if args.near is None else args.near,
                              steps=DEFAULT_STEPS if args.steps is None else args.steps)

@@ -24,25 +24,37 @@ def load_warm_start(path: str | Path, asm: Assembly) -> dict[str, Any]:
     Variables and rows are matched by name, so a result of an edited
     flowsheet still warm-starts the parts they share.
     """
+    from plantopt.flowsheet import read_input_bytes
+
     src = str(path)
     try:
-        data = json.loads(Path(path).read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise InputError(src, "", "file not found") from None
-    except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
+        data = json.loads(read_input_bytes(path, what="a result JSON").decode("utf-8"))
+    except (UnicodeDecodeError, json.JSONDecodeError, RecursionError) as exc:
         raise InputError(src, "", f"not a readable result JSON ({exc})") from None
     ws = data.get("warm_start") if isinstance(data, dict) else None
     if not isinstance(ws, dict) or not isinstance(ws.get("x"), list) or not isinstance(ws.get("x_paths"), list):
         raise InputError(src, "warm_start", "missing: the file is not a result written by 'plantopt optimize --json'")
+    try:
+        return _map_warm_start(ws, asm)
+    except (TypeError, ValueError) as exc:
+        raise InputError(src, "warm_start", f"expected lists of numbers and names as 'plantopt optimize --json' writes them ({exc})") from None
+
+
+def _num(v: Any, missing: float) -> float:
+    # JSON null stands for a non-finite number (see reports.io)
+    return missing if v is None else float(v)
+
+
+def _map_warm_start(ws: dict, asm: Assembly) -> dict[str, Any]:
     xmap = dict(zip(ws["x_paths"], ws["x"]))
-    x = np.array([float(xmap.get(s.path, np.nan)) for s in asm.slots])
+    x = np.array([_num(xmap.get(s.path), np.nan) for s in asm.slots])
     out: dict[str, Any] = {"x": x, "matched": int(np.isfinite(x).sum())}
     if isinstance(ws.get("lam_g"), list) and isinstance(ws.get("g_names"), list):
         gmap = dict(zip(ws["g_names"], ws["lam_g"]))
-        out["lam_g"] = np.array([float(gmap.get(r.name, 0.0)) for r in asm.rows])
+        out["lam_g"] = np.array([_num(gmap.get(r.name), 0.0) for r in asm.rows])
     if isinstance(ws.get("lam_x"), list) and len(ws["lam_x"]) == len(ws["x_paths"]):
         lmap = dict(zip(ws["x_paths"], ws["lam_x"]))
-        out["lam_x"] = np.array([float(lmap.get(s.path, 0.0)) for s in asm.slots])
+        out["lam_x"] = np.array([_num(lmap.get(s.path), 0.0) for s in asm.slots])
     if ws.get("radius") is not None:
         out["radius"] = float(ws["radius"])
     return out

@@ -233,12 +233,12 @@ def load_point(path: str | Path, fs: Flowsheet) -> OperatingPoint:
     suffix = p.suffix.lower()
     if suffix not in POINT_SUFFIXES:
         raise InputError(src, "", f"expected a point file ending in {', '.join(POINT_SUFFIXES)}, got {p.suffix or 'no suffix'!r}")
+    from plantopt.flowsheet import read_input_bytes
+
     try:
-        text = p.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise InputError(src, "", "file not found") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(src, "", f"cannot read the file ({exc})") from None
+        text = read_input_bytes(p, what="a point file").decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise InputError(src, "", f"not UTF-8 text (byte {exc.start})") from None
     data = None
     if suffix == ".toml":
         entries, errors = _entries_toml(src, text)

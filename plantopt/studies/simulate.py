@@ -19,10 +19,9 @@ def apply_overrides(fs: Flowsheet, overrides: Mapping[str, Any] | None) -> Flows
     """A copy of ``fs`` with ``--set`` style overrides applied (address to value text)."""
     if not overrides:
         return fs
-    new = fs.copy()
-    for path, value in overrides.items():
-        new.set_input(path, value)
-    return new
+    # each override checked alone and the combination as a whole (decision
+    # ranges around their base, composition sums, limit bounds in order)
+    return fs.with_overrides(overrides)
 
 
 def simulate(

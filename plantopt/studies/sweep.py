@@ -160,12 +160,12 @@ def read_scenarios(path: str | Path, fs: Flowsheet) -> tuple[list[str], list[dic
         The addresses, each row as address -> override text, the row names.
     """
     src = str(path)
+    from plantopt.flowsheet import read_input_bytes
+
     try:
-        text = Path(path).read_text(encoding="utf-8-sig")
-    except FileNotFoundError:
-        raise InputError(src, "", "file not found") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(src, "", f"not a readable UTF-8 CSV file ({exc})") from None
+        text = read_input_bytes(path, what="a scenario CSV file").decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise InputError(src, "", f"not a readable UTF-8 CSV file (byte {exc.start})") from None
     reader = csv.reader(io.StringIO(text))
     try:
         header = [h.strip() for h in next(reader)]

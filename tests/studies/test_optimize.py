@@ -89,3 +89,15 @@ def test_price_override_moves_the_optimum(demo, both):
     assert dearer.status == "optimal"
     # envelope theorem: profit falls by at least... the amount bought times the price change, to first order
     assert dearer.objective.value < sqp.objective.value
+
+
+def test_junk_warm_start_file_is_an_input_error(demo, tmp_path):
+    from plantopt.errors import InputError
+    from plantopt.studies.optimize import load_warm_start
+
+    fs, asm = demo
+    p = tmp_path / "junk.json"
+    p.write_text('{"warm_start": {"x": ["a", "b"], "x_paths": ["p", "q"], "radius": "wide"}}')
+    with pytest.raises(InputError) as e:
+        load_warm_start(p, asm)
+    assert str(e.value).startswith(f"{p}: warm_start: expected lists of numbers")
