@@ -334,9 +334,10 @@ def run_size(units: int, solvers: list[str], *, max_iter: int = 500, max_time: f
             done.add(msg[1])
             r = msg[2]
             if "error" in r:
-                r = {"status": "error", "message": r["error"]}
+                r = {"status": "error", "message": r["error"], "trace": r.get("trace", "")}
             rows.append(_row(info, msg[1], r))
-            log(f"  size {info.get('units')}: {msg[1]} {rows[-1]['status']} in {rows[-1].get('wall_s') or float('nan'):.2f} s")
+            log(f"  size {info.get('units')}: {msg[1]} {rows[-1]['status']} in {rows[-1].get('wall_s') or float('nan'):.2f} s"
+                + (f" ({rows[-1].get('message')})" if rows[-1]["status"] in ("error", "failed") else ""))
         else:
             log(f"  size {units}: {msg[1]}")
             for s in solvers:
@@ -436,6 +437,13 @@ def main(argv: list[str] | None = None) -> int:
     if bad or not sizes or any(s < 1 for s in sizes):
         print(f"plantopt bench scale: bad --solvers {bad} or --sizes {a.sizes!r}", file=sys.stderr)
         return 2
+    # import every solver module now: each size's solves then run the code as it was at
+    # the start of the run, even if the files change during a long benchmark
+    import plantopt.solver.inertia  # noqa: F401
+    import plantopt.solver.ipopt  # noqa: F401
+    import plantopt.solver.qp  # noqa: F401
+    import plantopt.solver.sqp  # noqa: F401
+
     print("Generated sites (invented data): parallel trains sharing a feed header, a steam header and a blended product.")
     rows: list[dict[str, Any]] = []
     for u in sizes:
