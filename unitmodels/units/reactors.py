@@ -1,4 +1,4 @@
-"""Reactors: continuous stirred tank (liquid or gas phase)."""
+"""Reactors: continuous stirred tank, plug flow (discretised), fixed conversion, chemical equilibrium."""
 
 from __future__ import annotations
 
@@ -254,10 +254,33 @@ class PFR(_Reacting):
     * ``"duty"``: the specified ``duty`` is added uniformly along the
       volume (``Q/N`` per segment, 0 for adiabatic) and node temperatures
       follow from one energy balance per segment.
+    * ``"wall"``: heat crosses the wall to (or from) a coolant at the
+      parameter ``coolant_temperature`` ``T_c`` through the coefficient
+      ``wall_coefficient`` ``U`` (W/m**2/K) over the total ``wall_area``
+      ``A`` (m**2), spread uniformly along the volume. Segment ``k``
+      receives ``q_k = U (A/N) (T_c - (T_{k-1} + T_k)/2)``, the heat at
+      the segment's midpoint temperature as the implicit midpoint rule
+      asks, and ``Q = sum_k q_k`` (a variable, the reactor's duty for
+      utility costing). No specification: ``U``, ``A`` and ``T_c`` fix the
+      thermal behaviour. Without reaction and with constant heat capacity
+      the scheme gives ``(T_c - T_N)/(T_c - T_0) = ((1 - b/2)/(1 + b/2))**N``
+      with ``b = U A / (N F c_p)``, second-order close to the exact
+      ``exp(-U A / (F c_p))``.
 
-    Variables: ``node<k>.F.<component>`` and, in duty mode,
+    Energy balance of segment ``k`` (duty and wall modes):
+    ``H(F_{k-1}, T_{k-1}) + q_k - H(F_k, T_k) = 0`` with ``q_k = Q/N``
+    (duty) or the wall heat above. Isothermal mode: one overall balance
+    ``H_in + Q - H_out = 0``.
+
+    Variables: ``node<k>.F.<component>`` and, in duty and wall modes,
     ``node<k>.T`` for the interior nodes ``k = 1 .. N-1``;
     ``segment<k>.extent.<reaction>`` for ``k = 1 .. N``; ``Q``.
+    Residuals (``n`` components, ``R`` reactions): per segment ``n``
+    balances and ``R`` rate equations, plus one energy balance in duty and
+    wall modes; then the overall energy balance (isothermal) or the duty
+    sum ``Q - sum_k q_k`` (wall); then the pressure. Degrees of freedom:
+    1 in isothermal mode (``temperature``) and duty mode (``duty``), 0 in
+    wall mode.
     """
 
     kind = "pfr"
@@ -265,7 +288,8 @@ class PFR(_Reacting):
     options_declared = (
         Option("reactions", list, None, None, "names of the reactions (flowsheet `reactions` table)"),
         Option("phase", str, "liquid", ("liquid", "vapour"), "phase of the reacting mixture and the outlet"),
-        Option("mode", str, "isothermal", ("isothermal", "duty"), "isothermal at a given temperature, or a given duty"),
+        Option("mode", str, "isothermal", ("isothermal", "duty", "wall"),
+               "isothermal at a given temperature, a given duty, or wall heat transfer to a coolant"),
         Option("grid", int, 20, None, "number of equal volume segments"),
         Option("utility", str, None, None, "utility supplying or removing the duty"),
     )
@@ -280,6 +304,11 @@ class PFR(_Reacting):
     def n_seg(self) -> int:
         return int(self.options["grid"])
 
+    @property
+    def _profiled(self) -> bool:
+        """True when node temperatures are unknowns (duty and wall modes)."""
+        return self.options["mode"] in ("duty", "wall")
+
     def ports(self) -> list[Port]:
         return [Port("inlet", "in"), Port("outlet", "out")]
 
@@ -290,7 +319,7 @@ class PFR(_Reacting):
         vs = [Var("Q", "W", nominal=1.0e5, doc="heat added")]
         for k in range(1, self.n_seg):
             vs += [Var(f"node{k}.F.{c}", "mol/s", 0.0, INF, nominal=1.0) for c in self.system.names]
-            if self.options["mode"] == "duty":
+            if self._profiled:
                 vs.append(Var(f"node{k}.T", "K", 150.0, 1500.0, 300.0))
         for k in range(1, self.n_seg + 1):
             vs += [Var(f"segment{k}.extent.{r.name}", "mol/s", nominal=0.1) for r in self.reactions]
@@ -300,6 +329,12 @@ class PFR(_Reacting):
         ps = [Param("volume", "volume", None, lower=0.0, doc="reacting volume"), Param("pressure_drop", "pressure_difference", 0.0)]
         if any(r.rate_per == "catalyst_mass" for r in self.reactions):
             ps.append(Param("catalyst_mass", "mass", None, lower=0.0))
+        if self.options["mode"] == "wall":
+            ps += [Param("wall_coefficient", "heat_transfer_coefficient", None, lower=0.0,
+                         doc="overall heat-transfer coefficient between the reacting fluid and the coolant"),
+                   Param("wall_area", "area", None, lower=0.0, doc="total heat-transfer area, uniform along the volume"),
+                   Param("coolant_temperature", "temperature", None, category="operating", lower=0.0,
+                         doc="coolant temperature, the same all along the reactor")]
         return ps + self.reaction_parameters()
 
     def initial_guess(self, inlets: Mapping[str, list[tuple[Any, float, float]]]) -> dict[str, float]:
@@ -309,13 +344,16 @@ class PFR(_Reacting):
         for k in range(1, self.n_seg):
             for i, c in enumerate(self.system.names):
                 out[f"node{k}.F.{c}"] = float(F[i])
-            if self.options["mode"] == "duty":
+            if self._profiled:
                 out[f"node{k}.T"] = float(T)
         return out
 
     def specs(self) -> list[Spec]:
         if self.options["mode"] == "isothermal":
             return [Spec("temperature", "temperature", "thermal", "reactor temperature")]
+        if self.options["mode"] == "wall":
+            # the wall coefficient, area and coolant temperature fix the heat: nothing to specify
+            return []
         return [Spec("duty", "power", "thermal", "heat added along the reactor (0 for adiabatic)")]
 
     def _nodes(self, s: Symbols) -> list[tuple[Any, Any, Any]]:
@@ -325,7 +363,7 @@ class PFR(_Reacting):
         nodes = [(i.F, i.T, i.P)]
         for k in range(1, N):
             F = ca.vertcat(*[s.x[f"node{k}.F.{c}"] for c in self.system.names])
-            T = s.x[f"node{k}.T"] if self.options["mode"] == "duty" else o.T
+            T = s.x[f"node{k}.T"] if self._profiled else o.T
             nodes.append((F, T, i.P - s.p["pressure_drop"] * k / N))
         nodes.append((o.F, o.T, o.P))
         return nodes
@@ -340,11 +378,26 @@ class PFR(_Reacting):
             F0, T0, _ = nodes[k - 1]
             F1, T1, _ = nodes[k]
             Fm = (F0 + F1) / 2
-            Tm = (T0 + T1) / 2 if self.options["mode"] == "duty" else o.T
+            Tm = (T0 + T1) / 2 if self._profiled else o.T
             Pm = s.port("inlet").P - s.p["pressure_drop"] * (k - 0.5) / N
             st = mixture_state(self.system, self.options["phase"], Fm, Tm, Pm)
             out.append(reaction_rates(self, s, st, Tm, s.p["volume"] / N, None if cat is None else cat / N))
         return out
+
+    def _wall_heats(self, s: Symbols) -> list[Any]:
+        """Heat into each segment through the wall, W (wall mode only).
+
+        Returns
+        -------
+        list of casadi.SX, length N
+            ``U (A/N) (T_c - T_mid)`` with ``T_mid`` the mean of the
+            segment's end temperatures: the midpoint value the implicit
+            midpoint rule uses for every other right-hand side.
+        """
+        nodes = self._nodes(s)
+        N = self.n_seg
+        ua_seg = s.p["wall_coefficient"] * s.p["wall_area"] / N
+        return [ua_seg * (s.p["coolant_temperature"] - (nodes[k - 1][1] + nodes[k][1]) / 2) for k in range(1, N + 1)]
 
     def residuals(self, s: Symbols) -> list[Any]:
         i, o = s.port("inlet"), s.port("outlet")
@@ -353,6 +406,7 @@ class PFR(_Reacting):
         N = self.n_seg
         ph = self.options["phase"]
         res = []
+        wall = self._wall_heats(s) if self.options["mode"] == "wall" else None
         for k, rates in zip(range(1, N + 1), self._segments(s)):
             gen = ca.SX.zeros(sys.n)
             for r in self.reactions:
@@ -360,12 +414,16 @@ class PFR(_Reacting):
             res += [nodes[k][0][c] - nodes[k - 1][0][c] - gen[c] for c in range(sys.n)]
             for r, (rate, mult) in zip(self.reactions, rates):
                 res.append(s.x[f"segment{k}.extent.{r.name}"] - mult * rate)
-            if self.options["mode"] == "duty":
+            if self._profiled:
                 h0 = sys.enthalpy_flow(nodes[k - 1][0], nodes[k - 1][1], i.phase if k == 1 else ph)
                 h1 = sys.enthalpy_flow(nodes[k][0], nodes[k][1], ph)
-                res.append(h0 + s.x["Q"] / N - h1)
+                q = s.x["Q"] / N if wall is None else wall[k - 1]
+                res.append(h0 + q - h1)
         if self.options["mode"] == "isothermal":
             res.append(sys.enthalpy_flow(i.F, i.T, i.phase) + s.x["Q"] - sys.enthalpy_flow(o.F, o.T, o.phase))
+        if wall is not None:
+            # Q is the sum of the segment heats, so heat_duty and utility costing see the wall heat
+            res.append(s.x["Q"] - sum(wall))
         res.append(o.P - (i.P - s.p["pressure_drop"]))
         return res
 
@@ -373,10 +431,12 @@ class PFR(_Reacting):
         names = []
         for k in range(1, self.n_seg + 1):
             names += [f"segment{k}.balance.{c}" for c in self.system.names] + [f"segment{k}.rate.{r.name}" for r in self.reactions]
-            if self.options["mode"] == "duty":
+            if self._profiled:
                 names.append(f"segment{k}.energy")
         if self.options["mode"] == "isothermal":
             names.append("energy")
+        if self.options["mode"] == "wall":
+            names.append("wall_duty")
         return names + ["pressure"]
 
     def spec_expression(self, name: str, s: Symbols) -> Any:
@@ -397,7 +457,7 @@ class PFR(_Reacting):
         for c in self.reactants():
             k = self.system.index(c)
             out[f"conversion.{c}"] = ((i.F[k] - o.F[k]) / ca.fmax(i.F[k], 1e-30), "")
-        if self.options["mode"] == "duty":
+        if self._profiled:
             temps = [n[1] for n in self._nodes(s)]
             # smooth upper bound of the node temperatures is not needed: report the list's values
             for k, t in enumerate(temps[1:-1], start=1):
@@ -444,7 +504,7 @@ class PFR(_Reacting):
 
     @classmethod
     def conformance_cases(cls, system: Any = None) -> list[ConformanceCase]:
-        from unitmodels._examples import butanes
+        from unitmodels._examples import butanes, esterification
         from unitmodels.kinetics import Reaction
 
         sysb = butanes()
@@ -457,7 +517,24 @@ class PFR(_Reacting):
             {"volume": 1.0, "iso.pre_exponential": 1.0e-3, "iso.activation_energy": 6.0e4,
              "iso.pre_exponential_reverse": 4.0e-4, "iso.activation_energy_reverse": 5.0e4},
             guess=g, reacting=True)
-        return [cls.conformance_case(system), iso]
+        # wall mode: the esterification mixture heated through the wall by a coolant above the feed
+        # temperature, with a pressure drop (illustrative numbers, not data)
+        rxw = Reaction("esterification", {"acetic acid": -1, "ethanol": -1, "ethyl acetate": 1, "water": 1},
+                       reversible=True, reference_temperature=340.0)
+        uw = cls("R7", esterification(), {"reactions": ["esterification"], "mode": "wall", "grid": 6, "utility": "steam"},
+                 reactions=[rxw])
+        # rate constants 100 times smaller than the duty-mode case: a smooth profile on this coarse grid
+        # (with k dV / Vdot > 2 per segment the midpoint rule oscillates about equilibrium)
+        fin = [1.0, 1.2, 0.0, 0.3]
+        gw = uw.initial_guess({"inlet": [(fin, 330.0, 2.0e5)]})  # every node at the inlet state
+        gw["outlet"] = [(fin, 330.0, 1.9e5)]
+        wall = ConformanceCase(
+            uw, {"inlet": [(fin, 330.0, 2.0e5, "liquid")]}, {},
+            {"volume": 0.5, "pressure_drop": 1.0e4, "wall_coefficient": 400.0, "wall_area": 3.0, "coolant_temperature": 365.0,
+             "esterification.pre_exponential": 4.0e-8, "esterification.activation_energy": 5.0e4,
+             "esterification.pre_exponential_reverse": 1.5e-8, "esterification.activation_energy_reverse": 4.0e4},
+            guess=gw, reacting=True)
+        return [cls.conformance_case(system), iso, wall]
 
 
 class _ExtentReactor(_Reacting):
