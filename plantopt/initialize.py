@@ -278,7 +278,9 @@ def _fast_newton(fast, x0, lo, hi, rhs, p):
         try:
             d = np.linalg.solve(J, -r)
         except np.linalg.LinAlgError:
-            return None
+            # singular (e.g. a zero-flow guess): the minimum-norm least-squares
+            # step still reduces the linearised residual
+            d = np.linalg.lstsq(J, -r, rcond=None)[0]
         if not np.isfinite(d).all():
             return None
         t = 1.0
