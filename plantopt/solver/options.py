@@ -74,8 +74,11 @@ RADIUS_EXPAND = 2.0
 #: initial l-inf radius in scaled variables (x / x_nominal)
 RADIUS_INIT = 10.0
 RADIUS_MAX = 1e6
-#: smallest restoration radius at which 'no predicted decrease' certifies infeasibility
-RADIUS_CERTIFY = 1e-2
+#: restoration (the filter SQP on the elastic l1 problem) hands the point back to the main filter
+#: only when its elastic variables sum to at most RESTORATION_CONSISTENT * max(1, h): the previous
+#: linearisation was consistent up to the QP's accuracy (piqp tolerance 1e-10 on the elastic
+#: bounds; our choice, a margin above it), so the main QP at the point is expected consistent.
+RESTORATION_CONSISTENT = 1e-7
 #: below this scaled radius the method declares stagnation
 RADIUS_MIN = 1e-12
 

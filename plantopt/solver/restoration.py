@@ -1,18 +1,21 @@
-"""Feasibility restoration: l1 elastic QP steps in the trust region.
+"""Feasibility restoration: the l1 elastic problem.
 
 When the linearised constraints are inconsistent (or the QP fails) the
-method minimises the l1 violation ``h(z) = sum_i max(cl_i - c_i, c_i - cu_i, 0)``
-by a trust-region SL1QP: each step solves the elastic QP ::
+method minimises the l1 violation ``h(z) = sum_i max(cl_i - c_i, c_i - cu_i, 0)``.
+:class:`ElasticNLP` is that minimisation as a smooth NLP in ``(z, p, n)``
+(elastic variables ``p, n >= 0``; Fletcher, Practical Methods of
+Optimization, 2nd ed., 1987, sec. 14.4; the restoration problem of
+Waechter & Biegler 2006, sec. 3.3), which the driver solves with the
+filter SQP itself (:func:`plantopt.solver.sqp._restore`): exact Hessian,
+inertia test, filter and its own trust region. Its KKT conditions at a
+point with a positive violation certify local infeasibility.
+
+:func:`elastic_qp` is the elastic QP of one linearisation ::
 
     min  e'(p + n) + 1/2 d'(H + delta I)d
     s.t. cl - c <= J d - p + n <= cu - c,  p, n >= 0,  lb <= d <= ub
 
-(cf. Fletcher, Practical Methods of Optimization, 2nd ed., 1987, sec. 14.4,
-and the restoration phase of FL2002 sec. 3) with ``H`` the Hessian of the
-constraint part ``y'c`` of the Lagrangian at the elastic multipliers.
-A step with no predicted decrease of ``h`` in a nondegenerate trust region
-certifies that ``z`` is a stationary point of the violation, i.e. local
-infeasibility.
+a kernel kept for diagnosing inconsistent linearisations (tested on its own).
 """
 
 from __future__ import annotations
@@ -22,6 +25,7 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.sparse as sp
 
+from plantopt.solver.problem import scale_csc
 from plantopt.solver.qp import solve_qp
 
 
@@ -84,66 +88,64 @@ def elastic_qp(
     return ElasticStep("solved", d, res.y, model_h, pred)
 
 
-def extend_step(
-    d: np.ndarray, Jd: np.ndarray, c: np.ndarray, cl: np.ndarray, cu: np.ndarray,
-    lb: np.ndarray, ub: np.ndarray, curv: float, h: float, grow: float = 2.0,
-) -> tuple[float, float]:
-    """Longest useful multiple ``t >= 1`` of a restoration step along its direction.
+class ElasticNLP:
+    """The smooth l1 feasibility problem of a scaled NLP, with the evaluator interface of ``CompiledNLP``.
 
-    The curvature shift ``delta I`` that makes the elastic QP convex limits
-    its step to about ``|grad h| / delta`` however large the trust region:
-    measured on an infeasible flowsheet (a product contract above what the
-    plant can make), every restoration step stayed ``~1e-2`` long inside a
-    radius of 10 with the ratio ``~2`` (the violation behaved linearly), and
-    200 iterations went by. The l1 model with the unshifted curvature ::
+    Variables ``w = (z, p, n)`` (``z`` scaled as in ``prob``; ``p, n >= 0``
+    of the size of the constraint rows) and ::
 
-        m(t) = sum_i viol_i(c + t J d) + 1/2 t^2 d'H d
+        min  e'(p + n)   s.t.  cl <= c(z) - p + n <= cu,   zl <= z <= zu
 
-    is evaluated at ``t = 1, grow, grow^2, ...`` up to the largest ``t``
-    keeping ``t d`` inside ``[lb, ub]`` (the trust region and the bounds),
-    and the ``t`` of the smallest model value is returned with its
-    predicted reduction ``h - m(t)``. Only the direction of the QP is used,
-    so the trust-region ratio test judges the longer step as any other
-    (a dogleg-like search on the model, cf. Conn, Gould & Toint,
-    Trust-Region Methods, 2000, sec. 6.3: any step with at least the
-    Cauchy decrease is admissible).
+    whose minimum value is the least l1 violation reachable from the start
+    (the restoration problem of Waechter & Biegler 2006, sec. 3.3, without
+    their proximity term, and the elastic mode of Fletcher 1987, sec. 14.4).
+    Its linearisations are always consistent, so the filter SQP solves it
+    without restoration; its KKT conditions at a point with ``e'(p + n) > 0``
+    certify local infeasibility of the original problem.
 
-    Parameters
-    ----------
-    d : ndarray, shape (n,)
-        Step of the elastic QP.
-    Jd : ndarray, shape (m,)
-        ``J @ d``.
-    c, cl, cu : ndarray, shape (m,)
-    lb, ub : ndarray, shape (n,)
-        Step bounds (trust region intersected with the variable bounds).
-    curv : float
-        ``d' H d`` with the unshifted curvature ``H``.
-    h : float
-        Current l1 violation.
-
-    Returns
-    -------
-    (t, pred) : (float, float)
+    Evaluations go through ``prob`` and are counted in the original NLP's
+    counters; :meth:`reset_counts` is a no-op so those counts accumulate.
     """
-    with np.errstate(divide="ignore", invalid="ignore"):
-        tu = np.where(d > 0, ub / d, np.inf)
-        tl = np.where(d < 0, lb / d, np.inf)
-    t_max = float(min(np.min(tu, initial=np.inf), np.min(tl, initial=np.inf)))
-    if not np.isfinite(t_max):
-        t_max = 1.0
 
-    def model(t: float) -> float:
-        lin = c + t * Jd
-        return float(np.sum(np.maximum(np.maximum(cl - lin, lin - cu), 0.0))) + 0.5 * t * t * curv
+    def __init__(self, prob):
+        self.prob = prob
+        self.n = prob.cnlp.nx
+        self.m = prob.cnlp.ng
+        self.nx = self.n + 2 * self.m
+        self.ng = self.m
+        self.np_ = 0
+        self.n_eval = prob.cnlp.n_eval
+        m = self.m
+        self._Im = sp.identity(m, format="csc")
+        self._zero = sp.csc_matrix((2 * m, 2 * m))
 
-    best_t, best_m = 1.0, model(1.0)
-    t = 1.0
-    while t < t_max:
-        t = min(t * grow, t_max)
-        mt = model(t)
-        if mt < best_m:
-            best_t, best_m = t, mt
-        elif mt > best_m:
-            break  # m is piecewise convex-quadratic along t beyond its minimum... stop at the first rise
-    return best_t, h - best_m
+    def reset_counts(self) -> None:
+        """Counts accumulate in the original NLP's counters (see class docstring)."""
+
+    def split(self, w: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        n, m = self.n, self.m
+        return w[:n], w[n:n + m], w[n + m:]
+
+    def f(self, w: np.ndarray, p: np.ndarray) -> float:
+        return float(np.sum(w[self.n:]))
+
+    def grad_f(self, w: np.ndarray, p: np.ndarray) -> np.ndarray:
+        return np.concatenate([np.zeros(self.n), np.ones(2 * self.m)])
+
+    def g(self, w: np.ndarray, p: np.ndarray) -> np.ndarray:
+        z, pp, nn = self.split(w)
+        pr = self.prob
+        return pr.sc.sg * pr.cnlp.g(pr.x(z), pr.p) - pp + nn
+
+    def jac(self, w: np.ndarray, p: np.ndarray) -> sp.csc_matrix:
+        z = w[:self.n]
+        pr = self.prob
+        J = scale_csc(pr.cnlp.jac(pr.x(z), pr.p), pr.sc.sg, pr.sc.dx)
+        return sp.hstack([J, -self._Im, self._Im], format="csc")
+
+    def hess(self, w: np.ndarray, p: np.ndarray, sigma: float, lam_g: np.ndarray) -> sp.csc_matrix:
+        z = w[:self.n]
+        pr = self.prob
+        H = pr.cnlp.hess(pr.x(z), pr.p, 0.0, pr.sc.sg * np.asarray(lam_g, float))
+        H = scale_csc(H, pr.sc.dx, pr.sc.dx)
+        return sp.block_diag([H, self._zero], format="csc")

@@ -83,8 +83,6 @@ def test_methanol_loop_optimum_value():
     assert -r.f * 3600 == pytest.approx(1614.94, abs=0.01)
 
 
-@pytest.mark.xfail(strict=True, reason="known defect: restoration creeps (violation 3.82 -> 3.37 scaled "
-                   "in 200 iterations) instead of certifying local infeasibility; IPOPT certifies in 44")
 def test_infeasible_contract_is_certified():
     # a sales contract of 20,000 kg/h of cumene, above what the demo plant can make
     asm, x0, lbx, ubx, lbg, ubg = _problem(ROOT / "flowsheets/demo.toml")
@@ -95,3 +93,15 @@ def test_infeasible_contract_is_certified():
     assert r.status == Status.INFEASIBLE, r.message
     # the least-infeasible point: the cumene flow of IPOPT's certificate point
     assert r.g[row] == pytest.approx(ri.g[row], rel=1e-3)
+
+
+def test_unreachable_purity_is_certified():
+    # a crude-column purity of 0.99, which no separation of the demo reaches
+    asm, x0, lbx, ubx, lbg, ubg = _problem(ROOT / "flowsheets/demo.toml")
+    row = next(i for i, rw in enumerate(asm.rows) if rw.name == "limits.crude_purity")
+    lbg[row] = 0.99
+    r, ri = _solve_both(asm, x0, lbx, ubx, lbg, ubg)
+    assert ri.status == Status.INFEASIBLE
+    assert r.status == Status.INFEASIBLE, r.message
+    # the returned point is infeasible on the purity row, not made feasible by round-off
+    assert lbg[row] - r.g[row] > 1e-3
