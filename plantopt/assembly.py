@@ -18,6 +18,7 @@ numbers back.
 
 from __future__ import annotations
 
+import gc
 import math
 from dataclasses import dataclass, field
 from functools import lru_cache
@@ -287,6 +288,19 @@ def assemble(fs: Flowsheet) -> Assembly:
     -------
     Assembly
     """
+    # Assembly creates hundreds of thousands of long-lived objects (symbols,
+    # slots, rows) and no reference cycles worth collecting; the cyclic
+    # collector's full passes over them made the build superlinear in size.
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        return _assemble(fs)
+    finally:
+        if was_enabled:
+            gc.enable()
+
+
+def _assemble(fs: Flowsheet) -> Assembly:
     system = fs.system
     n = system.n
     slots: list[Slot] = []
@@ -424,7 +438,8 @@ def assemble(fs: Flowsheet) -> Assembly:
         parts = address.split(".")
         if parts[0] == "streams":
             return stream_vals[parts[1]][q_index[".".join(parts[2:])]]
-        return unit_output(parts[1], parts[2])
+        # output names may contain dots (a reactor's node10.temperature)
+        return unit_output(parts[1], ".".join(parts[2:]))
 
     limit_rows: dict[str, int] = {}
     for lim in fs.limits:

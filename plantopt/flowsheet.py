@@ -1147,8 +1147,8 @@ def quantity_kind(fs: Flowsheet, address: str) -> U.Kind:
                 raise KeyError(f"unknown component {parts[3]!r} (known: {', '.join(fs.system.names)})")
             return U.KINDS[STREAM_COMPONENT_QUANTITIES[q]]
         raise KeyError(f"unknown stream quantity in {address!r} (known: {', '.join(list(STREAM_QUANTITIES) + [k + '.<component>' for k in STREAM_COMPONENT_QUANTITIES])})")
-    if len(parts) == 3 and parts[0] == "units":
-        uid, q = parts[1], parts[2]
+    if len(parts) >= 3 and parts[0] == "units":
+        uid, q = parts[1], ".".join(parts[2:])
         if uid not in fs.units:
             raise KeyError(f"no unit named {uid!r}")
         m = fs.units[uid]
