@@ -31,6 +31,10 @@ def test_utility_costs_follow_duty_and_price():
     # cooling water per mass: duty / (cp * dT), cp = 4186 J/kg/K (common practice value for water)
     water_kg_h = -q["C1"].value * 1e3 / (4186.0 * 10.0) * 3600
     assert -res.objective.breakdown["utility.C1.water"] == pytest.approx(water_kg_h * 0.05 / 1000, rel=1e-9)
+    # fuel per energy, divided by the fired efficiency: 30 USD/MWh at 80 %
+    fired = next(u for u in res.units if u.name == "H2").quantities["duty"]
+    assert fired.unit == "kW" and fired.value > 0
+    assert -res.objective.breakdown["utility.H2.gas"] == pytest.approx(fired.value / 1000 / 0.8 * 30.0, rel=1e-9)
     # feed and product priced per mass: 36 kmol/h of toluene (92.138 g/mol, chemicals)
     mass = 36.0 * 92.13842
     assert res.objective.breakdown["revenue.P1"] == pytest.approx(0.9 * mass, rel=1e-9)
