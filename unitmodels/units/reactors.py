@@ -49,7 +49,14 @@ def reaction_rates(unit: "_Reacting", s: Symbols, st: Mapping[str, Any], T: Any,
 
 
 class _Reacting(UnitModel):
-    """Shared handling of the ``reactions`` option and kinetic parameters."""
+    """Shared handling of the ``reactions`` option and kinetic parameters; one inlet, one outlet
+    whose phase is the ``phase`` option."""
+
+    def ports(self) -> list[Port]:
+        return [Port("inlet", "in"), Port("outlet", "out")]
+
+    def outlet_phases(self, inlet_phases: Mapping[str, list[str]]) -> dict[str, str]:
+        return {"outlet": self.options["phase"]}
 
     def validate(self) -> None:
         names = list(self.options.get("reactions") or [])
@@ -73,6 +80,12 @@ class _Reacting(UnitModel):
             if r.rate_per == "holdup_mass" and self.options.get("phase") == "vapour":
                 # allowed (gas density from the ideal-gas law) but unusual; nothing to reject
                 pass
+
+    def _duty_and_extents(self, extent_doc: str) -> list[Var]:
+        """The duty ``Q`` and one extent variable per reaction (mol/s)."""
+        return [Var("Q", "W", nominal=1.0e5, doc="heat added")] + [
+            Var(f"extent.{r.name}", "mol/s", nominal=1.0, doc=extent_doc.format(r.name)) for r in self.reactions
+        ]
 
     def reaction_parameters(self) -> list[Param]:
         """The hosted reactions' parameters, named ``<reaction>.<param>`` with their shared address."""
@@ -120,16 +133,8 @@ class CSTR(_Reacting):
         Option("utility", str, None, None, "utility supplying or removing the duty"),
     )
 
-    def ports(self) -> list[Port]:
-        return [Port("inlet", "in"), Port("outlet", "out")]
-
-    def outlet_phases(self, inlet_phases: Mapping[str, list[str]]) -> dict[str, str]:
-        return {"outlet": self.options["phase"]}
-
     def variables(self) -> list[Var]:
-        return [Var("Q", "W", nominal=1.0e5, doc="heat added")] + [
-            Var(f"extent.{r.name}", "mol/s", nominal=1.0, doc=f"rate of reaction {r.name} times its basis") for r in self.reactions
-        ]
+        return self._duty_and_extents("rate of reaction {} times its basis")
 
     def parameters(self) -> list[Param]:
         ps = [Param("volume", "volume", None, lower=0.0, doc="reacting volume"), Param("pressure_drop", "pressure_difference", 0.0)]
@@ -308,12 +313,6 @@ class PFR(_Reacting):
     def _profiled(self) -> bool:
         """True when node temperatures are unknowns (duty and wall modes)."""
         return self.options["mode"] in ("duty", "wall")
-
-    def ports(self) -> list[Port]:
-        return [Port("inlet", "in"), Port("outlet", "out")]
-
-    def outlet_phases(self, inlet_phases: Mapping[str, list[str]]) -> dict[str, str]:
-        return {"outlet": self.options["phase"]}
 
     def variables(self) -> list[Var]:
         vs = [Var("Q", "W", nominal=1.0e5, doc="heat added")]
@@ -541,16 +540,8 @@ class _ExtentReactor(_Reacting):
     """Reactor whose extents follow from a condition other than kinetics
     (a fixed conversion, chemical equilibrium): shared balances."""
 
-    def ports(self) -> list[Port]:
-        return [Port("inlet", "in"), Port("outlet", "out")]
-
-    def outlet_phases(self, inlet_phases: Mapping[str, list[str]]) -> dict[str, str]:
-        return {"outlet": self.options["phase"]}
-
     def variables(self) -> list[Var]:
-        return [Var("Q", "W", nominal=1.0e5, doc="heat added")] + [
-            Var(f"extent.{r.name}", "mol/s", nominal=1.0, doc=f"molar extent of reaction {r.name}") for r in self.reactions
-        ]
+        return self._duty_and_extents("molar extent of reaction {}")
 
     def specs(self) -> list[Spec]:
         return [Spec("temperature", "temperature", "thermal", "outlet temperature"),
