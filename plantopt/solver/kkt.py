@@ -18,9 +18,7 @@ import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
-import qdldl
-
-from plantopt.solver.inertia import kkt_matrix, kkt_upper
+from plantopt.solver.inertia import factor_upper, kkt_matrix, kkt_upper
 
 
 def measures(
@@ -67,7 +65,7 @@ def _ls_solve(M: sp.csc_matrix, grad: np.ndarray) -> np.ndarray | None:
     # when M is rank deficient).
     eps_qd = 1e-10
     try:
-        fac = qdldl.Solver(kkt_upper(I, M, 0.0, eps_qd), upper=True)
+        fac = factor_upper(kkt_upper(I, M, 0.0, eps_qd))
         sol = fac.solve(rhs)
         scale = max(1.0, float(np.max(np.abs(rhs), initial=0.0)))
         for _ in range(10):

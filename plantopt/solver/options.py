@@ -74,8 +74,12 @@ RADIUS_EXPAND = 2.0
 #: initial l-inf radius in scaled variables (x / x_nominal)
 RADIUS_INIT = 10.0
 RADIUS_MAX = 1e6
+#: proximity weight zeta of the first restoration stage, objective e'(p + n) + zeta/2 ||z - z_r||^2
+#: in scaled variables [Waechter & Biegler 2006, eq. (30), where zeta = sqrt(mu); 1e-2 is their
+#: value at mu = 1e-4]. Certification re-solves with zeta = 0 (restoration.ElasticNLP).
+RESTORATION_PROX = 1e-2
 #: restoration (the filter SQP on the elastic l1 problem) hands the point back to the main filter
-#: only when its elastic variables sum to at most RESTORATION_CONSISTENT * max(1, h): the previous
+#: only when its largest elastic variable is at most RESTORATION_CONSISTENT * max(1, h): the previous
 #: linearisation was consistent up to the QP's accuracy (piqp tolerance 1e-10 on the elastic
 #: bounds; our choice, a margin above it), so the main QP at the point is expected consistent.
 RESTORATION_CONSISTENT = 1e-7

@@ -22,11 +22,10 @@ from dataclasses import dataclass
 
 import numpy as np
 import piqp
-import qdldl
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
-from plantopt.solver.inertia import kkt_matrix, kkt_upper
+from plantopt.solver.inertia import factor_upper, kkt_matrix, kkt_upper
 from plantopt.solver.kkt import ls_multipliers
 from plantopt.solver.options import PIQP_FIRST_ITER
 
@@ -150,7 +149,7 @@ def _kkt_solve_qd(H: sp.spmatrix, M: sp.spmatrix, K: sp.csc_matrix, rhs: np.ndar
     """
     eps = 1e-9 * max(1.0, float(np.max(np.abs(K.data), initial=0.0)))
     try:
-        fac = qdldl.Solver(kkt_upper(H, M, eps, eps), upper=True)
+        fac = factor_upper(kkt_upper(H, M, eps, eps))
     except (ValueError, RuntimeError):
         return None
     scale = max(1.0, float(np.max(np.abs(rhs), initial=0.0)))

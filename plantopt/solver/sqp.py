@@ -33,7 +33,7 @@ from plantopt.solver.inertia import regularise
 from plantopt.solver.nlp import CompiledNLP
 from plantopt.solver.options import (
     DELTA_FIRST, F_NOISE, FILTER_KAPPA, FILTER_SIGMA, H_MAX_FACTOR, H_MAX_MIN,
-    RESTORATION_CONSISTENT, RADIUS_INIT, RADIUS_MIN,
+    RESTORATION_CONSISTENT, RESTORATION_PROX, RADIUS_INIT, RADIUS_MIN,
 )
 from plantopt.solver.problem import ScaledProblem, scale_csc
 from plantopt.solver.qp import QPResult, solve_qp
@@ -418,16 +418,14 @@ def _restore(
     n, m = prob.cnlp.nx, prob.cnlp.ng
     h = prob.violation(st.c)
     filt.add(h, st.F)
-    enlp = ElasticNLP(prob)
     pp = np.maximum(st.c - prob.cu, 0.0)
     nn = np.maximum(prob.cl - st.c, 0.0)
-    w0 = np.concatenate([st.z, pp, nn])
     lbw = np.concatenate([prob.zl, np.zeros(2 * m)])
     ubw = np.concatenate([prob.zu, np.full(2 * m, np.inf)])
 
     def callback(w: np.ndarray, rad_inner: float) -> None:
-        z, pw, nw = enlp.split(w)
-        if float(np.sum(pw) + np.sum(nw)) > RESTORATION_CONSISTENT * max(1.0, h):
+        z, pw, nw = w[:n], w[n:n + m], w[n + m:]
+        if float(np.max(np.maximum(pw, nw), initial=0.0)) > RESTORATION_CONSISTENT * max(1.0, h):
             return
         vals = prob.values(z)
         if vals is None:
@@ -437,20 +435,31 @@ def _restore(
         if ht < h and filt.acceptable(ht, Ft):
             raise _HandBack(z, vals, rad_inner)
 
-    opts = {"tol": tol, "max_iter": max(0, max_iter - it), "max_time": max_time - (time.perf_counter() - t0),
-            "verbose": 0, "x_nominal": None, "g_nominal": None, "callback": callback, "stash": rest}
-    handed = None
-    r = None
-    try:
-        r = sqp_solve(enlp, w0, lbw, ubw, prob.cl, prob.cu, np.zeros(0), opts, None)
-    except _HandBack as hb:
-        handed = hb
-    k0 = it
-    hist = r.history if r is not None else rest.pop("inner_history", [])
-    it = k0 + (r.iterations if r is not None else rest.pop("inner_iterations", 0))
-    for rec in hist:
-        record("restoration", float(rec["ratio"]), float(rec["optimality"]), bool(rec["accepted"]),
-               k0 + int(rec["iter"]), float(rec["radius"]))
+    def inner(enlp: ElasticNLP, w0: np.ndarray, ws: dict | None, k0: int):
+        opts = {"tol": tol, "max_iter": max(0, max_iter - k0),
+                "max_time": max_time - (time.perf_counter() - t0), "verbose": 0, "x_nominal": None,
+                "g_nominal": None, "callback": callback, "stash": rest}
+        r, handed = None, None
+        try:
+            r = sqp_solve(enlp, w0, lbw, ubw, prob.cl, prob.cu, np.zeros(0), opts, ws)
+        except _HandBack as hb:
+            handed = hb
+        hist = r.history if r is not None else rest.pop("inner_history", [])
+        k = k0 + (r.iterations if r is not None else rest.pop("inner_iterations", 0))
+        for rec in hist:
+            record("restoration", float(rec["ratio"]), float(rec["optimality"]), bool(rec["accepted"]),
+                   k0 + int(rec["iter"]), float(rec["radius"]))
+        return r, handed, k
+
+    # stage 1: with the proximity term; stage 2 (certification): without it
+    r, handed, it = inner(ElasticNLP(prob, st.z, RESTORATION_PROX), np.concatenate([st.z, pp, nn]), None, it)
+    stage2 = False
+    if handed is None and r.status is Status.OPTIMAL:
+        vals = prob.values(r.x[:n])
+        if vals is not None and prob.violation_inf(vals[1]) > tol:
+            ws = {"lam_g": r.lam_g, "lam_x": r.lam_x, "radius": r.warm_start.get("radius")}
+            r, handed, it = inner(ElasticNLP(prob), r.x, ws, it)
+            stage2 = True
     if handed is not None:
         z = handed.z
         derivs = prob.derivatives(z)
@@ -470,9 +479,11 @@ def _restore(
     rad_back = r.warm_start.get("radius") or radius
     if r.status is Status.OPTIMAL:
         if prob.violation_inf(ct) > tol:
+            if not stage2:
+                return st_new, rad_back, it, Status.FAILED, "restoration: certification stage not run"
             return st_new, rad_back, it, Status.INFEASIBLE, (
                 f"locally infeasible: the l1 violation {hv:.3e} (scaled) is stationary "
-                f"(KKT of the elastic problem hold, {r.iterations} restoration iterations)")
+                f"(KKT of the elastic problem hold)")
         return st_new, max(rad_back, 1e-3), it, None, ""
     if r.status in (Status.ITERATION_LIMIT, Status.TIME_LIMIT):
         better = hv < h
