@@ -989,6 +989,7 @@ class _Builder:
         return fs
 
     def decisions(self, fs: Flowsheet) -> None:
+        taken: set[str] = set()
         for name, dec in self.doc.decisions.items():
             base = f"decisions.{name}"
             target = dec.input
@@ -1002,16 +1003,15 @@ class _Builder:
                 avail = ", ".join(fs.specs[uid].values()) or "none"
                 self.err(f"{base}.input", f"{target!r} is not a specification given in the file (specifications of {uid}: {avail})")
                 continue
-            if any(d.input == target for d in fs.decisions):
+            if target in taken:
                 self.err(f"{base}.input", f"{target!r} is already a decision")
                 continue
+            taken.add(target)
             iv = fs.inputs[target]
             iv.category = "decision"
             lo = self.add_input(f"{base}.lower", dec.lower, iv.kind, "decision", WHERE_DECISION, iv.lower, iv.upper)
             hi = self.add_input(f"{base}.upper", dec.upper, iv.kind, "decision", WHERE_DECISION, iv.lower, iv.upper)
             if lo and hi:
-                if lo.unit != iv.unit and iv.unit:
-                    pass
                 if lo.si > hi.si:
                     self.err(base, "lower is above upper")
                     continue
@@ -1151,41 +1151,66 @@ def quantity_kind(fs: Flowsheet, address: str) -> U.Kind:
         uid, q = parts[1], ".".join(parts[2:])
         if uid not in fs.units:
             raise KeyError(f"no unit named {uid!r}")
-        m = fs.units[uid]
-        s = m.symbols()
-        outs = m.outputs(s)
-        if q in outs:
-            return U.resolve_kind(outs[q][1])
-        specs = {sp.name: sp for sp in m.specs()}
-        if q in specs:
-            return U.resolve_kind(specs[q].kind)
-        vars_ = {v.name: v for v in m.variables()}
-        if q in vars_:
-            return U.kind_for_si_unit(vars_[q].unit or "dimensionless")
-        raise KeyError(f"unit {uid!r} has no quantity {q!r} (known: {', '.join(sorted(set(outs) | set(specs)))})")
+        kinds = _unit_quantity_kinds(fs.units[uid])
+        if q in kinds:
+            return kinds[q]
+        known = sorted(k for k in kinds if k not in _VAR_NAMES_CACHE.get(fs.units[uid].signature(), ()))
+        raise KeyError(f"unit {uid!r} has no quantity {q!r} (known: {', '.join(known)})")
     raise KeyError(f"expected 'streams.<stream>.<quantity>' or 'units.<unit>.<quantity>', got {address!r}")
+
+
+_KINDS_CACHE: dict[tuple, dict[str, U.Kind]] = {}
+_VAR_NAMES_CACHE: dict[tuple, frozenset] = {}
+
+
+def _unit_quantity_kinds(m: UnitModel) -> dict[str, U.Kind]:
+    """Kind of every limitable quantity of a unit (outputs, specifications,
+    variables), cached per unit signature: building symbols for every limit
+    of a site-sized plant would dominate loading."""
+    key = m.signature()
+    hit = _KINDS_CACHE.get(key)
+    if hit is not None:
+        return hit
+    kinds: dict[str, U.Kind] = {}
+    vars_ = {v.name: v for v in m.variables()}
+    for name, v in vars_.items():
+        kinds[name] = U.kind_for_si_unit(v.unit or "dimensionless")
+    for sp in m.specs():
+        kinds[sp.name] = U.resolve_kind(sp.kind)
+    for name, (_, unit) in m.outputs(m.symbols()).items():
+        kinds[name] = U.resolve_kind(unit)
+    _KINDS_CACHE[key] = kinds
+    _VAR_NAMES_CACHE[key] = frozenset(n for n in vars_ if n not in {sp.name for sp in m.specs()})
+    return kinds
 
 
 def _propagate_phases(fs: Flowsheet) -> None:
     """Fix each stream's phase: feeds and fixed-phase ports first, then a
     fixed-point pass through the units (recycles converge in a few sweeps)."""
+    # port -> streams maps built once: the passes stay linear in the plant size
+    inlets: dict[str, dict[str, list[tuple[int, str]]]] = {}
+    outlets: dict[str, list[tuple[str, str]]] = {}
+    for s, st in fs.streams.items():
+        if st.dest:
+            inlets.setdefault(st.dest[0], {}).setdefault(st.dest[1], []).append((st.dest[2], s))
+        if st.source:
+            outlets.setdefault(st.source[0], []).append((st.source[1], s))
+    for ports in inlets.values():
+        for lst in ports.values():
+            lst.sort()
     known: dict[str, str] = {}
     for _ in range(len(fs.units) + 2):
         changed = False
         for uid, m in fs.units.items():
-            inlet_phases: dict[str, list[str]] = {}
-            for p in m.ports():
-                if p.direction == "in":
-                    names = [s for s, st in fs.streams.items() if st.dest and st.dest[0] == uid and st.dest[1] == p.name]
-                    names.sort(key=lambda s: fs.streams[s].dest[2])
-                    inlet_phases[p.name] = [known.get(n, "liquid") for n in names]
+            mine = inlets.get(uid, {})
+            inlet_phases = {p.name: [known.get(n, "liquid") for _, n in mine.get(p.name, [])]
+                            for p in m.ports() if p.direction == "in"}
             outs = m.outlet_phases(inlet_phases)
-            for s, st in fs.streams.items():
-                if st.source and st.source[0] == uid:
-                    ph = outs.get(st.source[1], "liquid")
-                    if known.get(s) != ph:
-                        known[s] = ph
-                        changed = True
+            for port, s in outlets.get(uid, []):
+                ph = outs.get(port, "liquid")
+                if known.get(s) != ph:
+                    known[s] = ph
+                    changed = True
         if not changed:
             break
     for s, st in fs.streams.items():
