@@ -242,26 +242,7 @@ def regularise(H: sp.spmatrix, A: sp.spmatrix, delta_last: float = 0.0) -> float
     if inertia(K0, dense_fallback=False, upper=True) == want:
         return 0.0
     scale = max(1.0, float(abs(H).max()) if H.nnz else 1.0)
-    # qdldl does not pivot: zero diagonal entries of H (variables entering
-    # linearly) can give a zero pivot although the curvature on the null
-    # space is fine. A tiny shift separates that case from true negative
-    # curvature; it is tried on the KKT matrix before the Finsler test,
-    # whose matrix H + rho A'A fills in: on the 1,000-unit site benchmark a
-    # KKT factorisation took 5 ms and a Finsler one 70 ms, and the Finsler
-    # test at delta = 0 ran at every iteration.
-    # After an iteration that needed a shift, the tiny shift is not tried
-    # (Waechter & Biegler 2006, Algorithm IC: the search restarts from a
-    # fraction of the last shift), which saves two factorisations.
-    tiny_first = delta_last == 0.0
-    if tiny_first and inertia(kkt_upper(H, A, DELTA_TINY * scale), dense_fallback=False, upper=True) == want:
-        return DELTA_TINY * scale
-    fin: list[_Finsler] = []
-
-    def finsler(delta: float) -> bool:
-        if not fin:
-            fin.append(_Finsler(H, A, scale))
-        return fin[0](delta)
-
+    finsler = _Finsler(H, A, scale)
     if finsler(0.0):
         return 0.0
 
@@ -270,7 +251,11 @@ def regularise(H: sp.spmatrix, A: sp.spmatrix, delta_last: float = 0.0) -> float
             return True
         return finsler(delta)
 
-    if tiny_first and finsler(DELTA_TINY * scale):
+    # qdldl does not pivot: zero diagonal entries of H (variables entering
+    # linearly) can give a zero pivot although the curvature on the null
+    # space is fine. A tiny shift separates that case from true negative
+    # curvature; the (slower) pivoted factorisation decides if it does not.
+    if ok(DELTA_TINY * scale, False):
         return DELTA_TINY * scale
     if inertia(K0, upper=True) == want:
         return 0.0
