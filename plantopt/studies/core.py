@@ -10,7 +10,7 @@ import numpy as np
 
 from plantopt import __version__
 from plantopt import units as U
-from plantopt.assembly import Assembly
+from plantopt.assembly import ROW_DIRECTION, ROW_LIMIT, Assembly
 from plantopt.flowsheet import Flowsheet
 from plantopt.results import (
     Balance,
@@ -24,7 +24,6 @@ from plantopt.results import (
     UnitResult,
     Violation,
 )
-from plantopt.assembly import ROW_DIRECTION, ROW_LIMIT
 
 DEFAULT_DISPLAY = {
     "temperature": "degC",
@@ -92,6 +91,8 @@ def build_result(
     pf = profit_factor(fs)
     lam_g = np.asarray(res.lam_g, dtype=float) if res.lam_g is not None else np.zeros(len(asm.rows))
     optimizing = command == "optimize"
+    # limit and decision values are constraint rows; every solver returns g at x
+    g_all = np.asarray(res.g, dtype=float)
 
     streams = []
     for sname, st in fs.streams.items():
@@ -125,8 +126,7 @@ def build_result(
     limits = []
     for lim in fs.limits:
         i = asm.limit_rows[lim.name]
-        val_si = rep.get(f"limit_value.{lim.name}")
-        val_si = float(np.asarray(res.g)[i]) if res.g is not None and len(res.g) == len(asm.rows) else val_si
+        val_si = float(g_all[i])
         k = lim.qkind.name
         unit = lim.unit or display_unit(fs, k)
         lo = fs.inputs[lim.lower_path].si if lim.lower_path else None
@@ -165,7 +165,7 @@ def build_result(
     for d in fs.decisions:
         i = asm.spec_rows[d.input]
         iv = fs.inputs[d.input]
-        val_si = float(np.asarray(res.g)[i]) if res.g is not None and len(res.g) == len(asm.rows) else iv.si
+        val_si = float(g_all[i])
         k = iv.kind.name
         lo, hi = fs.inputs[d.lower_path].si, fs.inputs[d.upper_path].si
         scale = max(1.0, abs(lo), abs(hi))
