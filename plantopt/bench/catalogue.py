@@ -1,8 +1,8 @@
 """Test problems for the NLP solver: Hock & Schittkowski and small analytic cases.
 
 Hock & Schittkowski problems are from W. Hock, K. Schittkowski, "Test
-Examples for Nonlinear Programming Codes", Lecture Notes in Economics and
-Mathematical Systems 187, Springer 1981. Formulations, start points and
+Examples for Nonlinear Programming Codes", Springer 1981 (vol. 187 of its
+series in economics and mathematical systems). Formulations, start points and
 optimal values below are written FROM MEMORY of that collection (no copy
 was at hand); the tests cross-check every one against IPOPT, and the
 analytic cases against closed-form solutions derived in the docstrings.
