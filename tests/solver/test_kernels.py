@@ -192,6 +192,28 @@ def test_inertia_when_qdldl_breaks_down():
     assert regularise(Hn, A) > 1.0
 
 
+def test_finsler_leaves_dense_rows_out_and_stays_a_certificate():
+    from plantopt.solver.inertia import _Finsler
+    from plantopt.solver.options import FINSLER_ROW_MAX
+    rng = np.random.default_rng(3)
+    n = FINSLER_ROW_MAX + 40
+    # sparse rows (2 entries each) and one dense row over every variable
+    rows = [np.eye(1, n, k).ravel() - np.eye(1, n, k + 1).ravel() for k in range(0, n - 1, 7)]
+    A = np.vstack(rows + [rng.uniform(0.5, 1.5, n)])
+    Z = sla.null_space(A)
+    for ev in (np.r_[rng.uniform(0.5, 2, 10), -2.0, rng.uniform(0.5, 2, n - 11)], rng.uniform(0.5, 2, n)):
+        H = np.diag(ev)
+        f = _Finsler(sp.csc_matrix(H), sp.csc_matrix(A), 2.0)
+        assert f.U.nnz <= 3 * n  # diagonal plus the 2x2 blocks of the sparse rows: no dense fill
+        for delta in (0.0, 1e-3, 0.1, 1.0, 3.0):
+            if f(delta):  # whenever certified, truly positive definite on null(A)
+                assert np.linalg.eigvalsh(Z.T @ (H + delta * np.eye(n)) @ Z).min() > 0
+        assert f(3.0)  # every shift above the most negative eigenvalue of H is certified
+    # the whole correction still gives positive curvature on null(A)
+    delta = regularise(sp.csc_matrix(H), sp.csc_matrix(A))
+    assert np.linalg.eigvalsh(Z.T @ (H + delta * np.eye(n)) @ Z).min() > 0
+
+
 def test_qp_degenerate_vertex_multipliers_bounded():
     # min -d1 - d2 with d1 <= 1, d2 <= 1, d1 + d2 <= 2: three active rows for
     # two variables; multipliers form the segment y = (1 - t, 1 - t, t), t in [0, 1]
