@@ -81,6 +81,17 @@ class _Reacting(UnitModel):
                 # allowed (gas density from the ideal-gas law) but unusual; nothing to reject
                 pass
 
+    def spec_expression(self, name: str, s: Symbols) -> Any:
+        """Outlet temperature or duty: the thermal specification every reactor offers."""
+        if name == "temperature":
+            return s.port("outlet").T
+        if name == "duty":
+            return s.x["Q"]
+        return super().spec_expression(name, s)
+
+    def heat_duty(self, s: Symbols) -> Any:
+        return s.x["Q"]
+
     def _duty_and_extents(self, extent_doc: str) -> list[Var]:
         """The duty ``Q`` and one extent variable per reaction (mol/s)."""
         return [Var("Q", "W", nominal=1.0e5, doc="heat added")] + [
@@ -172,16 +183,6 @@ class CSTR(_Reacting):
 
     def residual_names(self) -> list[str]:
         return [f"balance.{c}" for c in self.system.names] + ["energy", "pressure"] + [f"rate.{r.name}" for r in self.reactions]
-
-    def spec_expression(self, name: str, s: Symbols) -> Any:
-        if name == "temperature":
-            return s.port("outlet").T
-        if name == "duty":
-            return s.x["Q"]
-        return super().spec_expression(name, s)
-
-    def heat_duty(self, s: Symbols) -> Any:
-        return s.x["Q"]
 
     def outputs(self, s: Symbols) -> dict[str, tuple[Any, str]]:
         i, o = s.port("inlet"), s.port("outlet")
@@ -443,10 +444,8 @@ class PFR(_Reacting):
             return s.port("outlet").T
         if name == "duty" and self.options["mode"] == "duty":
             return s.x["Q"]
-        return super().spec_expression(name, s)
-
-    def heat_duty(self, s: Symbols) -> Any:
-        return s.x["Q"]
+        # not the shared temperature/duty rule: each PFR mode has only its own specification
+        return UnitModel.spec_expression(self, name, s)
 
     def outputs(self, s: Symbols) -> dict[str, tuple[Any, str]]:
         i, o = s.port("inlet"), s.port("outlet")
@@ -560,16 +559,6 @@ class _ExtentReactor(_Reacting):
 
     def _balance_names(self) -> list[str]:
         return [f"balance.{c}" for c in self.system.names] + ["energy", "pressure"]
-
-    def spec_expression(self, name: str, s: Symbols) -> Any:
-        if name == "temperature":
-            return s.port("outlet").T
-        if name == "duty":
-            return s.x["Q"]
-        return super().spec_expression(name, s)
-
-    def heat_duty(self, s: Symbols) -> Any:
-        return s.x["Q"]
 
     def outputs(self, s: Symbols) -> dict[str, tuple[Any, str]]:
         i, o = s.port("inlet"), s.port("outlet")
