@@ -33,6 +33,7 @@ from plantopt.flowsheet import (
     STREAM_QUANTITIES,
     WHERE_PARAM,
     Flowsheet,
+    port_map,
 )
 from unitmodels.base import STREAM_P_BOUNDS, STREAM_T_BOUNDS, StreamSym, Symbols, UnitModel
 
@@ -212,20 +213,6 @@ def _stream_kinds(system: Any) -> dict[str, str]:
         for q, kind in STREAM_COMPONENT_QUANTITIES.items():
             k[f"{q}.{c}"] = kind
     return k
-
-
-def port_map(fs: Flowsheet) -> dict[str, dict[str, list[str]]]:
-    """``{unit: {port: [stream, ...]}}`` in port order, from one pass over the streams.
-
-    Built once per flowsheet so that no unit scans every stream (that scan
-    made assembly O(units x streams))."""
-    ends: dict[tuple[str, str], list[tuple[int, str]]] = {}
-    for s, st in fs.streams.items():
-        for end in (st.source, st.dest):
-            if end:
-                ends.setdefault((end[0], end[1]), []).append((end[2], s))
-    return {uid: {port.name: [s for _, s in sorted(ends.get((uid, port.name), []))] for port in model.ports()}
-            for uid, model in fs.units.items()}
 
 
 @lru_cache(maxsize=None)

@@ -1184,33 +1184,39 @@ def _unit_quantity_kinds(m: UnitModel) -> dict[str, U.Kind]:
     return kinds
 
 
+def port_map(fs: "Flowsheet") -> dict[str, dict[str, list[str]]]:
+    """``{unit: {port: [stream, ...]}}`` in port order, from one pass over the streams.
+
+    Built once per flowsheet so that no unit scans every stream (that scan
+    made loading and assembly O(units x streams))."""
+    ends: dict[tuple[str, str], list[tuple[int, str]]] = {}
+    for s, st in fs.streams.items():
+        for end in (st.source, st.dest):
+            if end:
+                ends.setdefault((end[0], end[1]), []).append((end[2], s))
+    return {uid: {port.name: [s for _, s in sorted(ends.get((uid, port.name), []))] for port in model.ports()}
+            for uid, model in fs.units.items()}
+
+
 def _propagate_phases(fs: Flowsheet) -> None:
     """Fix each stream's phase: feeds and fixed-phase ports first, then a
     fixed-point pass through the units (recycles converge in a few sweeps)."""
-    # port -> streams maps built once: the passes stay linear in the plant size
-    inlets: dict[str, dict[str, list[tuple[int, str]]]] = {}
-    outlets: dict[str, list[tuple[str, str]]] = {}
-    for s, st in fs.streams.items():
-        if st.dest:
-            inlets.setdefault(st.dest[0], {}).setdefault(st.dest[1], []).append((st.dest[2], s))
-        if st.source:
-            outlets.setdefault(st.source[0], []).append((st.source[1], s))
-    for ports in inlets.values():
-        for lst in ports.values():
-            lst.sort()
+    pmap = port_map(fs)
     known: dict[str, str] = {}
     for _ in range(len(fs.units) + 2):
         changed = False
         for uid, m in fs.units.items():
-            mine = inlets.get(uid, {})
-            inlet_phases = {p.name: [known.get(n, "liquid") for _, n in mine.get(p.name, [])]
-                            for p in m.ports() if p.direction == "in"}
+            ports = pmap[uid]
+            inlet_phases = {p.name: [known.get(n, "liquid") for n in ports[p.name]] for p in m.ports() if p.direction == "in"}
             outs = m.outlet_phases(inlet_phases)
-            for port, s in outlets.get(uid, []):
-                ph = outs.get(port, "liquid")
-                if known.get(s) != ph:
-                    known[s] = ph
-                    changed = True
+            for p in m.ports():
+                if p.direction != "out":
+                    continue
+                ph = outs.get(p.name, "liquid")
+                for s in ports[p.name]:
+                    if known.get(s) != ph:
+                        known[s] = ph
+                        changed = True
         if not changed:
             break
     for s, st in fs.streams.items():

@@ -25,6 +25,7 @@ from typing import TYPE_CHECKING
 import casadi as ca
 import numpy as np
 
+from plantopt.flowsheet import port_map
 from plantopt.solver import compile_nlp, solve_equations
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -40,17 +41,6 @@ FAST_MAX_UNKNOWNS = 64
 _FAST_MAX_ITER = 40
 #: a row is solved when |r_i| <= _FAST_RTOL (1 + |rhs_i| + sum_j |J_ij x_j|)
 _FAST_RTOL = 1e-10
-
-
-def port_map(fs: "Flowsheet") -> dict[str, dict[str, list[str]]]:
-    """``{unit: {port: [stream, ...]}}`` in port order, built in one pass over the streams."""
-    ends: dict[tuple[str, str], list[tuple[int, str]]] = {}
-    for s, st in fs.streams.items():
-        for end in (st.source, st.dest):
-            if end:
-                ends.setdefault((end[0], end[1]), []).append((end[2], s))
-    return {uid: {port.name: [s for _, s in sorted(ends.get((uid, port.name), []))] for port in model.ports()}
-            for uid, model in fs.units.items()}
 
 
 def _unit_ports(fs: "Flowsheet", uid: str, model, pmap=None) -> list[tuple[str, str, list[str]]]:
