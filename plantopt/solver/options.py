@@ -91,9 +91,17 @@ GRAD_SCALE_MAX = 100.0
 SCALE_MIN = 1e-8
 
 # --- inertia correction (cf. Waechter & Biegler 2006, sec. 3.1) -----------
+#: first trial shift when no earlier shift is on record (delta_w^0, eq. IC-3 of W&B 2006)
 DELTA_FIRST = 1e-4
+#: factor applied to the last positive shift for the first trial (kappa_w^-, IC-3)
+DELTA_DECREASE = 1.0 / 3.0
+#: smallest trial shift (delta_w^min, IC-3)
+DELTA_MIN = 1e-20
+#: growth factor of the trial shift when no earlier shift is on record (bar kappa_w^+, IC-5)
+DELTA_GROW_FIRST = 100.0
 #: shift (relative to max |H_ij|) that only resolves zero pivots of a singular PSD H
 DELTA_TINY = 1e-10
+#: growth factor of the trial shift otherwise (kappa_w^+, IC-5)
 DELTA_GROW = 8.0
 DELTA_MAX = 1e20
 #: largest KKT size for the dense Bunch-Kaufman inertia fallback when qdldl breaks down
@@ -120,6 +128,12 @@ FINSLER_ROW_MAX = 64
 #: every QP ran to the limit of 100; after 20 iterations the step equals the 100-iteration one to
 #: 1e-10 (only non-unique multipliers drift, which the polish / least squares replace).
 PIQP_FIRST_ITER = 30
+#: largest KKT system handed to SuperLU when the qdldl path of the QP polish fails. Our choice:
+#: on the 300-unit site benchmark SuperLU (scipy 1.17.1) crashed the process with a segmentation
+#: fault inside dcolumn_bmod on polish systems of 8,620 and 10,922 rows (not reproducible on the
+#: saved matrices alone); above this size the polish is skipped instead (the interior-point
+#: solution and least-squares multipliers are kept).
+SPLU_MAX = 3000
 
 DEFAULTS: dict[str, Any] = {
     "solver": "sqp",
@@ -129,6 +143,9 @@ DEFAULTS: dict[str, Any] = {
     "verbose": 0,
     "x_nominal": None,
     "g_nominal": None,
+    # SQP: try each QP first from the previous QP's active set
+    # (plantopt.solver.qp.solve_qp_active_set) before the interior-point solve
+    "qp_active_set": True,
 }
 
 EQUATION_DEFAULTS: dict[str, Any] = dict(DEFAULTS, solver="newton", tol=1e-9, max_iter=100)

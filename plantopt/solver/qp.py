@@ -27,7 +27,7 @@ import scipy.sparse.linalg as spla
 
 from plantopt.solver.inertia import factor_upper, kkt_matrix, kkt_upper
 from plantopt.solver.kkt import ls_multipliers
-from plantopt.solver.options import PIQP_FIRST_ITER
+from plantopt.solver.options import PIQP_FIRST_ITER, SPLU_MAX
 
 
 @dataclass
@@ -88,19 +88,25 @@ def _classify(val: np.ndarray, lo: np.ndarray, hi: np.ndarray, mult: np.ndarray)
 
 
 def kkt_solve(
-    H: sp.spmatrix, g: np.ndarray, M: sp.spmatrix, b: np.ndarray
+    H: sp.spmatrix, g: np.ndarray, M: sp.spmatrix, b: np.ndarray, *, need_inertia: bool = False,
 ) -> tuple[np.ndarray, np.ndarray] | None:
-    """Solve ``[[H, M'], [M, 0]] [d; y] = [-g; b]`` by sparse LU.
+    """Solve ``[[H, M'], [M, 0]] [d; y] = [-g; b]``.
 
-    Returns ``None`` when the matrix is singular (e.g. dependent active rows).
-    One step of iterative refinement is applied.
+    ``qdldl`` on the regularised quasi-definite matrix first; SuperLU for
+    systems up to :data:`~plantopt.solver.options.SPLU_MAX` rows when that
+    fails. Returns ``None`` when the matrix is singular (e.g. dependent
+    active rows). With ``need_inertia`` only the ``qdldl`` path is tried, and
+    the solution is returned only if the factorisation shows ``H`` positive
+    definite on the null space of ``M`` (inertia ``(n, k)``).
     """
     n, k = H.shape[0], M.shape[0]
     K = kkt_matrix(H, M, 0.0, 0.0)
     rhs = np.concatenate([-g, b])
-    sol = _kkt_solve_qd(H, M, K, rhs)
+    sol = _kkt_solve_qd(H, M, K, rhs, need_inertia)
     if sol is not None:
         return sol[:n], sol[n:]
+    if need_inertia or n + k > SPLU_MAX:
+        return None
     try:
         lu = spla.splu(K)
         sol = lu.solve(rhs)
@@ -132,7 +138,8 @@ def kkt_solve(
     return sol[:n], sol[n:]
 
 
-def _kkt_solve_qd(H: sp.spmatrix, M: sp.spmatrix, K: sp.csc_matrix, rhs: np.ndarray) -> np.ndarray | None:
+def _kkt_solve_qd(H: sp.spmatrix, M: sp.spmatrix, K: sp.csc_matrix, rhs: np.ndarray,
+                  need_inertia: bool = False) -> np.ndarray | None:
     """``K sol = rhs`` by ``qdldl`` on the regularised ``[[H + eps I, M'], [M, -eps I]]``.
 
     The regularised matrix is quasi-definite when ``H + eps I`` is positive
@@ -145,11 +152,19 @@ def _kkt_solve_qd(H: sp.spmatrix, M: sp.spmatrix, K: sp.csc_matrix, rhs: np.ndar
     SuperLU on the (mostly singular) polish KKT systems took 0.15 s per
     factorisation, two per polish; this path a fraction of that. ``None`` when
     qdldl breaks down or the refinement does not converge (the SuperLU path
-    then decides).
+    then decides), and with ``need_inertia`` also when the pivots do not
+    have the signs ``(n positive, k negative)`` (Sylvester's law of inertia:
+    then ``H + eps I`` is not positive definite on the null space of ``M``).
     """
     eps = 1e-9 * max(1.0, float(np.max(np.abs(K.data), initial=0.0)))
     try:
         fac = factor_upper(kkt_upper(H, M, eps, eps))
+        if need_inertia:
+            dpiv = np.asarray(fac.factors()[1]).reshape(-1)
+            n = H.shape[0]  # the pivots come in AMD order: only their sign counts matter
+            if not (np.isfinite(dpiv).all() and int((dpiv > 0).sum()) == n
+                    and int((dpiv < 0).sum()) == dpiv.size - n):
+                return None
     except (ValueError, RuntimeError):
         return None
     scale = max(1.0, float(np.max(np.abs(rhs), initial=0.0)))
@@ -170,7 +185,7 @@ def _kkt_solve_qd(H: sp.spmatrix, M: sp.spmatrix, K: sp.csc_matrix, rhs: np.ndar
 def polish(
     H: sp.spmatrix, g: np.ndarray, A: sp.spmatrix, l: np.ndarray, u: np.ndarray,
     lb: np.ndarray, ub: np.ndarray, act_r: np.ndarray, act_b: np.ndarray,
-    feas_tol: float = 1e-9, rounds: int = 4,
+    feas_tol: float = 1e-9, rounds: int = 4, need_inertia: bool = False,
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
     """Re-solve the QP as an equality-constrained one on a given active set.
 
@@ -188,6 +203,10 @@ def polish(
         Relative primal feasibility tolerance of the polished step.
     rounds : int
         Active-set corrections tried.
+    need_inertia : bool
+        Accept a round only if ``H`` is positive definite on the null space
+        of its active constraints (see :func:`kkt_solve`); the result is then
+        a strict local minimiser of the QP even where ``H`` is indefinite.
 
     Returns
     -------
@@ -215,7 +234,7 @@ def polish(
         M = sp.vstack([A[rows], E], format="csc")
         b = np.concatenate([np.where(act_r[rows] < 0, l[rows], u[rows]),
                             np.where(act_b[bnds] < 0, lb[bnds], ub[bnds])])
-        sol = kkt_solve(Hc, g, M, b)
+        sol = kkt_solve(Hc, g, M, b, need_inertia=need_inertia)
         if sol is None:
             return None
         d, lam = sol
@@ -237,6 +256,46 @@ def polish(
         act_r[lo_r], act_r[hi_r] = -1, 1
         act_b[lo_b], act_b[hi_b] = -1, 1
     return None
+
+
+def solve_qp_active_set(
+    H: sp.spmatrix, g: np.ndarray, A: sp.spmatrix, l: np.ndarray, u: np.ndarray,
+    lb: np.ndarray, ub: np.ndarray, act_r: np.ndarray, act_b: np.ndarray,
+) -> QPResult | None:
+    """The QP solved from a predicted active set, or ``None``.
+
+    SQP iterates near a solution keep their active set, so the previous
+    QP's active set is a good guess: :func:`polish` with the guess solves one
+    equality-constrained KKT system (a few when constraints enter or leave)
+    instead of an interior-point run (measured on the 1,000-unit site
+    benchmark: piqp 0.18 s per QP, this path one or two sparse
+    factorisations). The answer is accepted only when it is a KKT point of
+    the QP -- primal feasible, multipliers of the right signs -- and ``H``
+    is positive definite on the null space of its active constraints, so it
+    is a strict local minimiser of the QP (Nocedal & Wright 2006, Thm. 16.4
+    with the second-order condition of Thm. 12.6); no shift of ``H`` is
+    needed then. ``None`` sends the caller to :func:`solve_qp`.
+
+    Parameters
+    ----------
+    H, g, A, l, u, lb, ub
+        QP data as in the module docstring (``H`` unshifted).
+    act_r, act_b : ndarray of int, shapes (m,), (n,)
+        Predicted active rows and bounds (-1 lower, +1 upper, 0 inactive).
+    """
+    A = sp.csr_matrix(A)
+    act_b = np.where((act_b < 0) & ~np.isfinite(lb) | (act_b > 0) & ~np.isfinite(ub), 0, act_b)
+    act_r = np.where((act_r < 0) & ~np.isfinite(l) | (act_r > 0) & ~np.isfinite(u), 0, act_r)
+    pol = polish(H, g, A, l, u, lb, ub, act_r, act_b, need_inertia=True)
+    if pol is None:
+        return None
+    d, y, yx = pol
+    if not np.isfinite(d).all():
+        return None
+    ar = _classify(A @ d, l, u, y)
+    ab = _classify(d, lb, ub, yx)
+    obj = float(g @ d + 0.5 * d @ (H @ d))
+    return QPResult("solved", d, y, yx, obj, True, ar, ab, info="active set")
 
 
 def solve_qp(

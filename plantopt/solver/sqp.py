@@ -36,7 +36,7 @@ from plantopt.solver.options import (
     RESTORATION_CONSISTENT, RESTORATION_PROX, RADIUS_INIT, RADIUS_MIN,
 )
 from plantopt.solver.problem import ScaledProblem, scale_csc
-from plantopt.solver.qp import QPResult, solve_qp
+from plantopt.solver.qp import QPResult, solve_qp, solve_qp_active_set
 from plantopt.solver.restoration import ElasticNLP
 from plantopt.solver.result import NLPResult
 from plantopt.solver.scaling import make_scaling, variable_scale
@@ -149,6 +149,7 @@ def sqp_solve(
     cnlp.reset_counts()
     tol, max_iter, max_time = float(opts["tol"]), int(opts["max_iter"]), float(opts["max_time"])
     verbose = int(opts["verbose"])
+    warm_qp = bool(opts.get("qp_active_set", True))
     callback = opts.get("callback")  # internal: restoration's hand-back test
     n, m = cnlp.nx, cnlp.ng
     dx = variable_scale(opts["x_nominal"], n)
@@ -209,11 +210,12 @@ def sqp_solve(
     if verbose:
         _log_header()
 
-    diag: dict[str, Any] = {"delta": 0.0, "polished": False}
+    diag: dict[str, Any] = {"delta": 0.0, "polished": False, "warm": False}
 
     def record(kind: str, ratio: float, opt: float, accepted: bool, k: int | None = None,
                rad: float | None = None) -> None:
         rec = {"iter": it if k is None else k, "delta": diag["delta"], "qp_polished": diag["polished"],
+               "qp_active_set": diag["warm"],
                "y_max": float(np.max(np.abs(st.y), initial=0.0)), "f": st.F / sc.sf, "violation": prob.violation_inf(st.c),
                "optimality": opt, "radius": radius if rad is None else rad, "ratio": ratio, "kind": kind,
                "accepted": accepted}
@@ -244,12 +246,23 @@ def sqp_solve(
         # expected active: equalities plus the previous QP's active rows and
         # bounds (second-order sufficiency); convexifying on the whole space
         # would shorten steps needlessly when inequalities are active.
-        rows = eq_rows if st.act_r is None else np.union1d(eq_rows, np.flatnonzero(st.act_r))
-        delta = regularise(H, _active_matrix(st.J, rows, st.act_b, n), delta_last)
-        delta_last = delta
-        Hr = (H + delta * sp.identity(n)).tocsc() if delta else H
         lb, ub = lin_bounds(st.z, radius)
-        qp = solve_qp(Hr, st.grad, st.J, prob.cl - st.c, prob.cu - st.c, lb, ub)
+        qp = None
+        if warm_qp and st.act_r is not None:
+            # the previous active set, solved directly with the unshifted H;
+            # accepted only as a certified local minimiser of the QP
+            qp = solve_qp_active_set(H, st.grad, st.J, prob.cl - st.c, prob.cu - st.c, lb, ub,
+                                     st.act_r, st.act_b)
+        if qp is not None:
+            delta, Hr = 0.0, H
+        else:
+            rows = eq_rows if st.act_r is None else np.union1d(eq_rows, np.flatnonzero(st.act_r))
+            delta = regularise(H, _active_matrix(st.J, rows, st.act_b, n), delta_last)
+            delta_last = delta or delta_last  # the last positive shift (Algorithm IC)
+            Hr = (H + delta * sp.identity(n)).tocsc() if delta else H
+            # (The same direct solve with the shifted H, tried here, cycled on
+            # the 1,000-unit site: 500 iterations without meeting the KKT test.)
+            qp = solve_qp(Hr, st.grad, st.J, prob.cl - st.c, prob.cu - st.c, lb, ub)
         for attempt in range(3):
             if qp.status != "failed":
                 break
@@ -262,10 +275,10 @@ def sqp_solve(
                 delta = max(regularise(H, A_try, delta), DELTA_FIRST, 10.0 * delta)
             else:
                 delta = regularise(H, sp.csc_matrix((0, n)), delta)
-            delta_last = delta
+            delta_last = delta or delta_last  # the last positive shift (Algorithm IC)
             Hr = (H + delta * sp.identity(n)).tocsc()
             qp = solve_qp(Hr, st.grad, st.J, prob.cl - st.c, prob.cu - st.c, lb, ub)
-        diag["delta"], diag["polished"] = delta, qp.polished
+        diag["delta"], diag["polished"], diag["warm"] = delta, qp.polished, qp.info == "active set"
         if qp.status != "solved":
             out = _restore(prob, st, filt, radius, tol, max_iter, max_time, t0, it, record, rest)
             st, radius, it, rstat, rmsg = out
@@ -335,7 +348,12 @@ def sqp_solve(
         if ok is False and m > 0 and trial is not None:
             ct = trial[1]
             csoc = ct - st.J @ d
-            qp2 = solve_qp(Hr, st.grad, st.J, prob.cl - csoc, prob.cu - csoc, lb, ub)
+            qp2 = None
+            if warm_qp:
+                qp2 = solve_qp_active_set(Hr, st.grad, st.J, prob.cl - csoc, prob.cu - csoc, lb, ub,
+                                          qp.active_rows, qp.active_bounds)
+            if qp2 is None:
+                qp2 = solve_qp(Hr, st.grad, st.J, prob.cl - csoc, prob.cu - csoc, lb, ub)
             if qp2.status == "solved":
                 ok2, ratio2, zt2, trial2 = judge(qp2.d)
                 if ok2:

@@ -1,0 +1,118 @@
+"""The direct active-set QP solve, the guarded KKT solve and the shift rule of Algorithm IC."""
+
+import numpy as np
+import pytest
+import scipy.sparse as sp
+
+from plantopt.solver.inertia import regularise
+from plantopt.solver.options import DELTA_FIRST, SPLU_MAX
+from plantopt.solver.qp import kkt_solve, solve_qp, solve_qp_active_set
+
+INF = np.inf
+
+
+def _nw_example_16_4():
+    """Nocedal & Wright, Numerical Optimization, 2nd ed. (2006), Example 16.4:
+    min (x1 - 1)^2 + (x2 - 2.5)^2 s.t. x1 - 2 x2 + 2 >= 0, -x1 - 2 x2 + 6 >= 0,
+    -x1 + 2 x2 + 2 >= 0, x >= 0; solution x* = (1.4, 1.7) with the first
+    constraint active (from memory; it is the projection of (1, 2.5) onto
+    x1 - 2 x2 = -2, which the test recomputes)."""
+    H = sp.csc_matrix(2.0 * np.eye(2))
+    g = np.array([-2.0, -5.0])
+    A = sp.csr_matrix(np.array([[1.0, -2.0], [-1.0, -2.0], [-1.0, 2.0]]))
+    l = np.array([-2.0, -6.0, -2.0])
+    u = np.full(3, INF)
+    lb, ub = np.zeros(2), np.full(2, INF)
+    return H, g, A, l, u, lb, ub
+
+
+def test_projection_reference_of_example_16_4():
+    # the quoted solution, recomputed: projection of (1, 2.5) onto the first constraint
+    a, x0 = np.array([1.0, -2.0]), np.array([1.0, 2.5])
+    x = x0 + (-2.0 - a @ x0) / (a @ a) * a
+    assert x == pytest.approx([1.4, 1.7], abs=1e-15)
+
+
+@pytest.mark.parametrize("guess_rows", [(-1, 0, 0), (0, 0, 0), (-1, -1, 0)])
+def test_active_set_solve_finds_example_16_4(guess_rows):
+    H, g, A, l, u, lb, ub = _nw_example_16_4()
+    qp = solve_qp_active_set(H, g, A, l, u, lb, ub, np.array(guess_rows), np.zeros(2, int))
+    assert qp is not None
+    assert qp.d == pytest.approx([1.4, 1.7], abs=1e-12)
+    # stationarity H d + g + A'y = 0 gives y_1 = -0.8 (casadi sign: negative at a lower bound)
+    assert qp.y == pytest.approx([-0.8, 0.0, 0.0], abs=1e-12)
+    assert list(qp.active_rows) == [-1, 0, 0]
+    # the interior-point path agrees
+    ip = solve_qp(H, g, A, l, u, lb, ub)
+    assert ip.d == pytest.approx(qp.d, abs=1e-8)
+
+
+def test_active_set_solve_refuses_a_saddle():
+    # H = diag(1, -1): with no constraint active on x2 the KKT point of the
+    # guess is a saddle (wrong inertia); it must not be returned as a QP solution
+    H = sp.csc_matrix(np.diag([1.0, -1.0]))
+    g = np.array([1.0, 0.0])
+    A = sp.csr_matrix((0, 2))
+    lb, ub = np.array([-1.0, -1.0]), np.array([1.0, 1.0])
+    none = np.zeros(0)
+    assert solve_qp_active_set(H, g, A, none, none, lb, ub, np.zeros(0, int), np.zeros(2, int)) is None
+    # with x2 at its upper bound the reduced Hessian is the positive 1x1 block:
+    # d = (-1, 1) with multiplier yx_2 = -(H d + g)_2 = 1 > 0 at the upper bound
+    qp = solve_qp_active_set(H, g, A, none, none, lb, ub, np.zeros(0, int), np.array([0, 1]))
+    assert qp is not None
+    assert qp.d == pytest.approx([-1.0, 1.0], abs=1e-12)
+    assert qp.yx == pytest.approx([0.0, 1.0], abs=1e-12)
+
+
+def test_kkt_solve_with_inertia_rejects_indefinite_null_space():
+    H = sp.csc_matrix(np.diag([1.0, -1.0, 2.0]))
+    M = sp.csr_matrix(np.array([[1.0, 0.0, 0.0]]))  # null space spans e2, e3: e2 has -1
+    g, b = np.ones(3), np.zeros(1)
+    assert kkt_solve(H, g, M, b, need_inertia=True) is None
+    # without the inertia requirement the (nonsingular) system is solved
+    d, y = kkt_solve(H, g, M, b)
+    K = np.block([[H.toarray(), M.toarray().T], [M.toarray(), np.zeros((1, 1))]])
+    assert K @ np.concatenate([d, y]) == pytest.approx(np.concatenate([-g, b]), abs=1e-12)
+
+
+def test_kkt_solve_skips_superlu_above_its_size_limit(monkeypatch):
+    # SuperLU crashed the process on large polish systems (see options.SPLU_MAX):
+    # when the qdldl path fails, SuperLU is called only up to SPLU_MAX rows
+    import plantopt.solver.qp as qpmod
+
+    calls = []
+    real = qpmod.spla.splu
+
+    def spy(K, *a, **k):
+        calls.append(K.shape[0])
+        return real(K, *a, **k)
+
+    monkeypatch.setattr(qpmod, "_kkt_solve_qd", lambda *a, **k: None)  # as if qdldl broke down
+    monkeypatch.setattr(qpmod.spla, "splu", spy)
+    for n, expect_call in ((10, True), (SPLU_MAX, False)):
+        calls.clear()
+        H = sp.identity(n, format="csc")
+        M = sp.csr_matrix(np.ones((1, n)))
+        out = kkt_solve(H, np.zeros(n), M, np.array([1.0]))
+        assert bool(calls) is expect_call
+        if expect_call:  # d = 1/n each, y = -1/n: the exact solution
+            assert out[0] == pytest.approx(np.full(n, 1.0 / n))
+        else:
+            assert out is None
+
+
+def test_regularise_shift_decays_as_in_algorithm_ic():
+    # Waechter & Biegler (2006), Math. Programming 106, Algorithm IC: with a
+    # shift on record the first trial is a third of it; without one it is
+    # 1e-4 (grown by 100 on failure). H = diag(1, -1e-6) needs delta > 1e-6.
+    H = sp.csc_matrix(np.diag([1.0, -1e-6]))
+    A = sp.csr_matrix((0, 2))
+    assert regularise(H, A, 0.0) == pytest.approx(DELTA_FIRST)
+    d = regularise(H, A, 1e-4)
+    assert d == pytest.approx(1e-4 / 3.0)
+    # repeated calls keep decaying until the shift no longer suffices, then grow by 8
+    seq = [1e-4]
+    for _ in range(8):
+        seq.append(regularise(H, A, seq[-1]))
+    assert all(s > 1e-6 for s in seq)
+    assert min(seq) < 1e-5
