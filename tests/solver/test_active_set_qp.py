@@ -101,18 +101,44 @@ def test_kkt_solve_skips_superlu_above_its_size_limit(monkeypatch):
             assert out is None
 
 
-def test_regularise_shift_decays_as_in_algorithm_ic():
-    # Waechter & Biegler (2006), Math. Programming 106, Algorithm IC: with a
-    # shift on record the first trial is a third of it; without one it is
-    # 1e-4 (grown by 100 on failure). H = diag(1, -1e-6) needs delta > 1e-6.
-    H = sp.csc_matrix(np.diag([1.0, -1e-6]))
+def test_regularise_first_trial_shift():
+    # Waechter & Biegler (2006), Math. Programming 106, Algorithm IC: first
+    # trial 1e-4, then a third of the previous shift, grown by 8 on failure;
+    # here floored at 1e-4 (see inertia.regularise). H = diag(1, -1e-6)
+    # needs delta > 1e-6; diag(1, -1e-3) needs delta > 1e-3.
     A = sp.csr_matrix((0, 2))
-    assert regularise(H, A, 0.0) == pytest.approx(DELTA_FIRST)
-    d = regularise(H, A, 1e-4)
-    assert d == pytest.approx(1e-4 / 3.0)
-    # repeated calls keep decaying until the shift no longer suffices, then grow by 8
-    seq = [1e-4]
-    for _ in range(8):
-        seq.append(regularise(H, A, seq[-1]))
-    assert all(s > 1e-6 for s in seq)
-    assert min(seq) < 1e-5
+    assert regularise(sp.csc_matrix(np.diag([1.0, -1e-6])), A, 0.0) == pytest.approx(DELTA_FIRST)
+    assert regularise(sp.csc_matrix(np.diag([1.0, -1e-6])), A, 3e-3) == pytest.approx(1e-3)
+    assert regularise(sp.csc_matrix(np.diag([1.0, -1e-3])), A, 0.0) == pytest.approx(6.4e-3)  # 1e-4, 8e-4 fail
+
+
+@pytest.mark.parametrize("rel, direct", [
+    ("flowsheets/demo.toml", True),
+    # measured: no direct solve is accepted on this loop (the interior-point path does all)
+    ("flowsheets/methanol_loop.toml", False),
+    ("tests/data/series_cstr.toml", True),
+])
+def test_sqp_with_direct_active_set_qps_matches_ipopt(rel, direct):
+    # the option qp_active_set (off by default, see options.DEFAULTS) end to
+    # end: same optimum as IPOPT on the same NLP, and some QPs took the direct path
+    from pathlib import Path
+
+    from plantopt import load_flowsheet
+    from plantopt.assembly import assemble
+    from plantopt.solver import Status, solve_nlp
+    from plantopt.studies.optimize import start_point
+
+    fs = load_flowsheet(Path(__file__).resolve().parents[2] / rel)
+    asm = assemble(fs)
+    x0 = start_point(asm, fs)
+    lbx, ubx = asm.x_bounds()
+    lbg, ubg = asm.g_bounds("optimize")
+    common = dict(p=asm.p_values())
+    ri = solve_nlp(asm.compiled, x0, lbx, ubx, lbg, ubg, options={"solver": "ipopt", "x_nominal": asm.x_nominal()},
+                   **common)
+    r = solve_nlp(asm.compiled, x0, lbx, ubx, lbg, ubg, options={"x_nominal": asm.x_nominal(), "qp_active_set": True},
+                  **common)
+    assert ri.status == Status.OPTIMAL
+    assert r.status == Status.OPTIMAL, r.message
+    assert r.f == pytest.approx(ri.f, rel=1e-6, abs=1e-9)
+    assert any(h.get("qp_active_set") for h in r.history) is direct
