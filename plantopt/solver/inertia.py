@@ -230,7 +230,7 @@ class _Finsler:
         return positive_definite(U)
 
 
-def regularise(H: sp.spmatrix, A: sp.spmatrix, delta_last: float = 0.0) -> float:
+def regularise(H: sp.spmatrix, A: sp.spmatrix, delta_last: float = 0.0, floor: float = DELTA_FIRST) -> float:
     """Smallest tried ``delta >= 0`` giving ``K`` the inertia ``(n, m, 0)``.
 
     A shift is accepted when the ``qdldl`` inertia of ``K`` is correct or
@@ -281,7 +281,7 @@ def regularise(H: sp.spmatrix, A: sp.spmatrix, delta_last: float = 0.0) -> float
     # units the SQP ended at another local optimum (profit 5.6e-4 below
     # IPOPT's, different active limits). The first trial therefore never
     # goes below 1e-4 once a shift was needed.
-    delta = max(DELTA_FIRST, DELTA_DECREASE * delta_last, 1e-8 * scale)
+    delta = max(floor, DELTA_DECREASE * delta_last, 1e-8 * scale)
     while delta < DELTA_MAX:
         if ok(delta, True):
             return delta

@@ -97,6 +97,14 @@ DELTA_FIRST = 1e-4
 DELTA_DECREASE = 1.0 / 3.0
 #: shift (relative to max |H_ij|) that only resolves zero pivots of a singular PSD H
 DELTA_TINY = 1e-10
+#: Floor of the first trial shift, adapted to the model's agreement (our rule): an accepted
+#: interior step with actual/predicted reduction above FLOOR_RATIO lowers the floor by
+#: FLOOR_DECREASE (the shift, not the region, limited the step: the quadratic model
+#: overestimated the curvature); a ratio below RATIO_SHRINK or a rejected step resets it to
+#: DELTA_FIRST.
+FLOOR_RATIO = 1.5
+FLOOR_DECREASE = 0.1
+FLOOR_MIN = 1e-10
 #: growth factor of the trial shift (kappa_w^+, IC-5)
 DELTA_GROW = 8.0
 DELTA_MAX = 1e20
