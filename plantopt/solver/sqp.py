@@ -150,7 +150,7 @@ def sqp_solve(
     cnlp.reset_counts()
     tol, max_iter, max_time = float(opts["tol"]), int(opts["max_iter"]), float(opts["max_time"])
     verbose = int(opts["verbose"])
-    warm_qp = bool(opts.get("qp_active_set", False))
+    warm_qp = bool(opts.get("qp_active_set", True))
     warm_here = True  # False right after a rejected step
     callback = opts.get("callback")  # internal: restoration's hand-back test
     n, m = cnlp.nx, cnlp.ng
@@ -263,9 +263,13 @@ def sqp_solve(
             delta = regularise(H, _active_matrix(st.J, rows, st.act_b, n), delta_last, delta_floor)
             delta_last = delta
             Hr = (H + delta * sp.identity(n)).tocsc() if delta else H
-            # (The same direct solve with the shifted H, tried here, cycled on
-            # the 1,000-unit site: 500 iterations without meeting the KKT test.)
-            qp = solve_qp(Hr, st.grad, st.J, prob.cl - st.c, prob.cu - st.c, lb, ub)
+            if warm_qp and warm_here and st.act_r is not None and delta > 0:
+                # the shifted H is positive definite on the null space of the
+                # predicted active set: the same direct solve usually holds
+                qp = solve_qp_active_set(Hr, st.grad, st.J, prob.cl - st.c, prob.cu - st.c, lb, ub,
+                                         st.act_r, st.act_b)
+            if qp is None:
+                qp = solve_qp(Hr, st.grad, st.J, prob.cl - st.c, prob.cu - st.c, lb, ub)
         for attempt in range(3):
             if qp.status != "failed":
                 break

@@ -119,8 +119,8 @@ def test_regularise_first_trial_shift():
     ("tests/data/series_cstr.toml", True),
 ])
 def test_sqp_with_direct_active_set_qps_matches_ipopt(rel, direct):
-    # the option qp_active_set (off by default, see options.DEFAULTS) end to
-    # end: same optimum as IPOPT on the same NLP, and some QPs took the direct path
+    # the option qp_active_set (on by default, see options.DEFAULTS) end to
+    # end: same optimum as IPOPT on the same NLP, and whether QPs took the direct path
     from pathlib import Path
 
     from plantopt import load_flowsheet
