@@ -35,7 +35,7 @@ import scipy.sparse as sp
 
 from plantopt.solver.options import (
     DELTA_DECREASE, DELTA_FIRST, DELTA_GROW, DELTA_MAX, DELTA_TINY,
-    DENSE_INERTIA_MAX, EPS_QD, FINSLER_RATIO, FINSLER_ROW_MAX,
+    DENSE_INERTIA_MAX, EPS_QD, FINSLER_RATIO, FINSLER_ROW_MAX, KKT_INACTIVE_PIVOT,
 )
 
 
@@ -105,6 +105,32 @@ def kkt_upper(H: sp.spmatrix, A: sp.spmatrix, delta: float, eps: float = EPS_QD)
     cols = np.concatenate([Hc.col[keep], idx_n, n + Ac.row, n + idx_m])
     vals = np.concatenate([Hc.data[keep], np.full(n, delta), Ac.data, np.full(m, -eps)])
     return sp.csc_matrix((vals, (rows, cols)), shape=(n + m, n + m))
+
+
+def masked_kkt_upper(
+    H: sp.spmatrix, A: sp.spmatrix, on_r: np.ndarray, on_b: np.ndarray, delta: float, eps: float,
+) -> sp.csc_matrix:
+    """Upper triangle of ``[[H + delta I, A', I], [A, -D_r, 0], [I, 0, -D_b]]``, shape (2n+m, 2n+m).
+
+    Every row of ``A`` and every bound (identity row) keeps its place: an
+    active one (``on_r``/``on_b`` true) gets the pivot ``-eps``, an inactive
+    one ``-KKT_INACTIVE_PIVOT``, which leaves it in the pattern without
+    constraining (its multiplier is ``A_i d / 1e20``). The sparsity pattern
+    is therefore the same for every active set, and ``qdldl`` refactors it
+    without a new ordering and symbolic analysis (:func:`factor_upper`).
+    Inactive entries add one negative pivot each: ``H + delta I`` is positive
+    definite on the null space of the active rows exactly when the inertia
+    is ``(n, m + n, 0)`` (up to the rounding-level ``A_i'A_i / 1e20``).
+    """
+    n, m = H.shape[0], A.shape[0]
+    Hc, Ac = sp.coo_matrix(H), sp.coo_matrix(A)
+    keep = Hc.row <= Hc.col
+    piv = np.concatenate([np.where(on_r, -eps, -KKT_INACTIVE_PIVOT), np.where(on_b, -eps, -KKT_INACTIVE_PIVOT)])
+    idx_n, idx_k = np.arange(n), np.arange(m + n)
+    rows = np.concatenate([Hc.row[keep], idx_n, Ac.col, idx_n, n + idx_k])
+    cols = np.concatenate([Hc.col[keep], idx_n, n + Ac.row, n + m + idx_n, n + idx_k])
+    vals = np.concatenate([Hc.data[keep], np.full(n, delta), Ac.data, np.ones(n), piv])
+    return sp.csc_matrix((vals, (rows, cols)), shape=(2 * n + m, 2 * n + m))
 
 
 def _block_eigs(D: np.ndarray) -> np.ndarray:
@@ -230,7 +256,8 @@ class _Finsler:
         return positive_definite(U)
 
 
-def regularise(H: sp.spmatrix, A: sp.spmatrix, delta_last: float = 0.0, floor: float = DELTA_FIRST) -> float:
+def regularise(H: sp.spmatrix, A: sp.spmatrix, delta_last: float = 0.0, floor: float = DELTA_FIRST,
+               mask: tuple[sp.spmatrix, np.ndarray, np.ndarray] | None = None) -> float:
     """Smallest tried ``delta >= 0`` giving ``K`` the inertia ``(n, m, 0)``.
 
     A shift is accepted when the ``qdldl`` inertia of ``K`` is correct or
@@ -245,7 +272,15 @@ def regularise(H: sp.spmatrix, A: sp.spmatrix, delta_last: float = 0.0, floor: f
         Rows whose null space must carry positive curvature.
     delta_last : float
         Shift of the previous iteration; the search starts at the larger of
-        1e-4 and a third of it.
+        ``floor`` and a third of it.
+    floor : float
+        Smallest first trial shift (the SQP driver adapts it).
+    mask : (J, on_r, on_b), optional
+        ``A`` given instead as the active rows ``on_r`` of ``J`` (m_J, n) and
+        the active bounds ``on_b`` (n,): the unpivoted inertia tests then use
+        :func:`masked_kkt_upper`, whose pattern does not change with the
+        active set (the pivoted dense fallback and the Finsler test still
+        use ``A``).
 
     Returns
     -------
@@ -255,7 +290,17 @@ def regularise(H: sp.spmatrix, A: sp.spmatrix, delta_last: float = 0.0, floor: f
     n, m = H.shape[0], A.shape[0]
     want = (n, m, 0)
     K0 = kkt_upper(H, A, 0.0)
-    if inertia(K0, dense_fallback=False, upper=True) == want:
+    if mask is not None:
+        J, on_r, on_b = mask
+        want_m = (n, J.shape[0] + n, 0)
+
+        def first_test(delta: float) -> bool:
+            return inertia(masked_kkt_upper(H, J, on_r, on_b, delta, EPS_QD), dense_fallback=False,
+                           upper=True) == want_m
+    else:
+        def first_test(delta: float) -> bool:
+            return inertia(kkt_upper(H, A, delta), dense_fallback=False, upper=True) == want
+    if first_test(0.0):
         return 0.0
     scale = max(1.0, float(abs(H).max()) if H.nnz else 1.0)
     finsler = _Finsler(H, A, scale)
@@ -263,7 +308,10 @@ def regularise(H: sp.spmatrix, A: sp.spmatrix, delta_last: float = 0.0, floor: f
         return 0.0
 
     def ok(delta: float, dense: bool) -> bool:
-        if inertia(kkt_upper(H, A, delta), dense_fallback=dense, upper=True) == want:
+        if first_test(delta):
+            return True
+        if dense and n + m <= DENSE_INERTIA_MAX and \
+                inertia(kkt_upper(H, A, delta), dense_fallback=True, upper=True) == want:
             return True
         return finsler(delta)
 
@@ -275,12 +323,13 @@ def regularise(H: sp.spmatrix, A: sp.spmatrix, delta_last: float = 0.0, floor: f
         return DELTA_TINY * scale
     if inertia(K0, upper=True) == want:
         return 0.0
-    # Not Algorithm IC of Waechter & Biegler (2006) verbatim: there the first
-    # trial is a third of the last positive shift, so the shift decays. Tried
-    # on the site benchmark: 1,000 units 56 -> 48 iterations, but at 100
-    # units the SQP ended at another local optimum (profit 5.6e-4 below
-    # IPOPT's, different active limits). The first trial therefore never
-    # goes below 1e-4 once a shift was needed.
+    # Algorithm IC of Waechter & Biegler (2006) starts at a third of the last
+    # shift, so the shift decays; here the first trial is also held above a
+    # floor that the SQP driver adapts to how well the model predicted the
+    # last step (options.FLOOR_RATIO). The plain decay, tried on the site
+    # benchmark, ended at another local optimum at 100 units (profit 5.6e-4
+    # below IPOPT's); a fixed floor of 1e-4 kept 40 of 56 iterations at 1e-4
+    # on the 1,000-unit site.
     delta = max(floor, DELTA_DECREASE * delta_last, 1e-8 * scale)
     while delta < DELTA_MAX:
         if ok(delta, True):

@@ -138,6 +138,11 @@ PIQP_FIRST_ITER = 30
 #: saved matrices alone); above this size the polish is skipped instead (the interior-point
 #: solution and least-squares multipliers are kept).
 SPLU_MAX = 3000
+#: pivot -KKT_INACTIVE_PIVOT that keeps an inactive row or bound in the fixed-pattern KKT matrix
+#: of the QP polish without constraining (plantopt.solver.qp._masked_kkt_solve); its multiplier
+#: is A_i d / 1e20 and it adds A_i'A_i / 1e20 to H, far below the eps = 1e-9 max|K| regularisation
+#: that the refinement removes anyway. Our choice.
+KKT_INACTIVE_PIVOT = 1e20
 
 DEFAULTS: dict[str, Any] = {
     "solver": "sqp",

@@ -32,6 +32,7 @@ from plantopt.solver.filter import Filter, acceptable_to_current, update_radius
 from plantopt.solver.inertia import regularise
 from plantopt.solver.nlp import CompiledNLP
 from plantopt.solver.options import (
+    DENSE_INERTIA_MAX,
     FLOOR_DECREASE, FLOOR_MIN, FLOOR_RATIO, RATIO_SHRINK,
     DELTA_FIRST, F_NOISE, FILTER_KAPPA, FILTER_SIGMA, H_MAX_FACTOR, H_MAX_MIN,
     RESTORATION_CONSISTENT, RESTORATION_PROX, RADIUS_INIT, RADIUS_MIN,
@@ -260,7 +261,13 @@ def sqp_solve(
             delta, Hr = 0.0, H
         else:
             rows = eq_rows if st.act_r is None else np.union1d(eq_rows, np.flatnonzero(st.act_r))
-            delta = regularise(H, _active_matrix(st.J, rows, st.act_b, n), delta_last, delta_floor)
+            mask = None
+            if n > DENSE_INERTIA_MAX:
+                # one KKT pattern for every active set (inertia.masked_kkt_upper)
+                on_r = np.zeros(m, dtype=bool)
+                on_r[rows.astype(int)] = True
+                mask = (st.J, on_r, np.zeros(n, bool) if st.act_b is None else st.act_b != 0)
+            delta = regularise(H, _active_matrix(st.J, rows, st.act_b, n), delta_last, delta_floor, mask)
             delta_last = delta
             Hr = (H + delta * sp.identity(n)).tocsc() if delta else H
             if warm_qp and warm_here and st.act_r is not None and delta > 0:

@@ -142,3 +142,39 @@ def test_sqp_with_direct_active_set_qps_matches_ipopt(rel, direct):
     assert r.status == Status.OPTIMAL, r.message
     assert r.f == pytest.approx(ri.f, rel=1e-6, abs=1e-9)
     assert any(h.get("qp_active_set") for h in r.history) is direct
+
+
+@pytest.mark.parametrize("seed", range(5))
+def test_masked_kkt_matches_the_reduced_system(seed):
+    # one pattern for every active set: the inertia and the solution must be
+    # those of the reduced KKT system [[H, M'], [M, 0]] on the active rows and
+    # bounds, checked against numpy's dense eigenvalues and solve
+    from plantopt.solver.inertia import inertia, masked_kkt_upper
+    from plantopt.solver.qp import _masked_kkt_solve
+
+    rng = np.random.default_rng(seed)
+    n, m = 12, 7
+    B = rng.standard_normal((n, n))
+    H = B + B.T  # indefinite in general
+    A = rng.standard_normal((m, n)) * (rng.random((m, n)) < 0.5)
+    on_r = rng.random(m) < 0.5
+    on_b = rng.random(n) < 0.3
+    M = np.vstack([A[on_r], np.eye(n)[on_b]])
+    k = M.shape[0]
+    Z = np.linalg.svd(M)[2][k:].T if k else np.eye(n)  # null-space basis (M has full row rank a.s.)
+    pd_on_null = bool(np.all(np.linalg.eigvalsh(Z.T @ H @ Z) > 0)) if Z.size else True
+    U = masked_kkt_upper(sp.csc_matrix(H), sp.csr_matrix(A), on_r, on_b, 0.0, 1e-10)
+    pos, neg, zero = inertia(U, upper=True)
+    assert (pos == n and neg == m + n) is pd_on_null
+    g = rng.standard_normal(n)
+    b_r, b_b = rng.standard_normal(m), rng.standard_normal(n)
+    K = np.block([[H, M.T], [M, np.zeros((k, k))]])
+    ref = np.linalg.solve(K, np.concatenate([-g, b_r[on_r], b_b[on_b]]))
+    act_r, act_b = on_r.astype(int) * -1, on_b.astype(int) * -1
+    out = _masked_kkt_solve(sp.csc_matrix(H), g, sp.csr_matrix(A), act_r, act_b, b_r, b_b, False)
+    assert out is not None
+    d, y, yx = out
+    assert d == pytest.approx(ref[:n], abs=1e-8)
+    assert y[on_r] == pytest.approx(ref[n:n + on_r.sum()], abs=1e-8)
+    assert yx[on_b] == pytest.approx(ref[n + on_r.sum():], abs=1e-8)
+    assert np.all(y[~on_r] == 0) and np.all(yx[~on_b] == 0)
