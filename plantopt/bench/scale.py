@@ -159,22 +159,21 @@ def _linalg_clock() -> Iterator[_Clock]:
 
     clock = _Clock()
 
-    class _PIQP:
-        def __init__(self, *a, **k):
-            self._s = piqp.SparseSolver(*a, **k)
+    def timed_class(cls, prefix: str, methods: tuple[str, ...], time_init: bool):
+        # a solver object whose construction and named methods are timed
+        # (qdldl's refactorisations and solves are linear algebra too)
+        class Timed:
+            def __init__(self, *a, **k):
+                make = clock.wrap(cls, prefix) if time_init else cls
+                self._s = make(*a, **k)
 
-        def __getattr__(self, name):
-            attr = getattr(self._s, name)
-            return clock.wrap(attr, f"piqp.{name}") if name in ("setup", "solve", "update") else attr
+            def __getattr__(self, name):
+                attr = getattr(self._s, name)
+                return clock.wrap(attr, f"{prefix}.{name}") if name in methods else attr
+        return Timed
 
-    class _QD:
-        # a solver object's refactorisations and solves are linear algebra too
-        def __init__(self, *a, **k):
-            self._s = clock.wrap(qdldl.Solver, "qdldl")(*a, **k)
-
-        def __getattr__(self, name):
-            attr = getattr(self._s, name)
-            return clock.wrap(attr, f"qdldl.{name}") if name in ("update", "solve", "factors") else attr
+    _PIQP = timed_class(piqp.SparseSolver, "piqp", ("setup", "solve", "update"), False)
+    _QD = timed_class(qdldl.Solver, "qdldl", ("update", "solve", "factors"), True)
 
     saved = (spla.splu, sla.ldl, inertia.qdldl, qpmod.piqp)
     spla.splu = clock.wrap(spla.splu, "splu")

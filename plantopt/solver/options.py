@@ -91,7 +91,8 @@ GRAD_SCALE_MAX = 100.0
 SCALE_MIN = 1e-8
 
 # --- inertia correction (cf. Waechter & Biegler 2006, sec. 3.1) -----------
-#: first trial shift (delta_w^0 of W&B 2006, IC-3); also its floor here, see inertia.regularise
+#: first trial shift (delta_w^0 of W&B 2006, IC-3); also the starting and reset value of the adapted floor
+#: of the first trial (FLOOR_* below, inertia.regularise)
 DELTA_FIRST = 1e-4
 #: factor applied to the last positive shift for the first trial (kappa_w^-, IC-3)
 DELTA_DECREASE = 1.0 / 3.0

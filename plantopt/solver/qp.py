@@ -88,24 +88,22 @@ def _classify(val: np.ndarray, lo: np.ndarray, hi: np.ndarray, mult: np.ndarray)
 
 
 def kkt_solve(
-    H: sp.spmatrix, g: np.ndarray, M: sp.spmatrix, b: np.ndarray, *, need_inertia: bool = False,
+    H: sp.spmatrix, g: np.ndarray, M: sp.spmatrix, b: np.ndarray,
 ) -> tuple[np.ndarray, np.ndarray] | None:
     """Solve ``[[H, M'], [M, 0]] [d; y] = [-g; b]``.
 
     ``qdldl`` on the regularised quasi-definite matrix first; SuperLU for
     systems up to :data:`~plantopt.solver.options.SPLU_MAX` rows when that
     fails. Returns ``None`` when the matrix is singular (e.g. dependent
-    active rows). With ``need_inertia`` only the ``qdldl`` path is tried, and
-    the solution is returned only if the factorisation shows ``H`` positive
-    definite on the null space of ``M`` (inertia ``(n, k)``).
+    active rows).
     """
     n, k = H.shape[0], M.shape[0]
     K = kkt_matrix(H, M, 0.0, 0.0)
     rhs = np.concatenate([-g, b])
-    sol = _kkt_solve_qd(H, M, K, rhs, need_inertia)
+    sol = _kkt_solve_qd(H, M, K, rhs)
     if sol is not None:
         return sol[:n], sol[n:]
-    if need_inertia or n + k > SPLU_MAX:
+    if n + k > SPLU_MAX:
         return None
     try:
         lu = spla.splu(K)
@@ -138,8 +136,7 @@ def kkt_solve(
     return sol[:n], sol[n:]
 
 
-def _kkt_solve_qd(H: sp.spmatrix, M: sp.spmatrix, K: sp.csc_matrix, rhs: np.ndarray,
-                  need_inertia: bool = False) -> np.ndarray | None:
+def _kkt_solve_qd(H: sp.spmatrix, M: sp.spmatrix, K: sp.csc_matrix, rhs: np.ndarray) -> np.ndarray | None:
     """``K sol = rhs`` by ``qdldl`` on the regularised ``[[H + eps I, M'], [M, -eps I]]``.
 
     The regularised matrix is quasi-definite when ``H + eps I`` is positive
@@ -152,19 +149,11 @@ def _kkt_solve_qd(H: sp.spmatrix, M: sp.spmatrix, K: sp.csc_matrix, rhs: np.ndar
     SuperLU on the (mostly singular) polish KKT systems took 0.15 s per
     factorisation, two per polish; this path a fraction of that. ``None`` when
     qdldl breaks down or the refinement does not converge (the SuperLU path
-    then decides), and with ``need_inertia`` also when the pivots do not
-    have the signs ``(n positive, k negative)`` (Sylvester's law of inertia:
-    then ``H + eps I`` is not positive definite on the null space of ``M``).
+    then decides).
     """
     eps = 1e-9 * max(1.0, float(np.max(np.abs(K.data), initial=0.0)))
     try:
         fac = factor_upper(kkt_upper(H, M, eps, eps))
-        if need_inertia:
-            dpiv = np.asarray(fac.factors()[1]).reshape(-1)
-            n = H.shape[0]  # the pivots come in AMD order: only their sign counts matter
-            if not (np.isfinite(dpiv).all() and int((dpiv > 0).sum()) == n
-                    and int((dpiv < 0).sum()) == dpiv.size - n):
-                return None
     except (ValueError, RuntimeError):
         return None
     scale = max(1.0, float(np.max(np.abs(rhs), initial=0.0)))
@@ -210,21 +199,21 @@ def _masked_kkt_solve(
         ``need_inertia``) or a refinement that does not converge.
     """
     n, m = H.shape[0], A.shape[0]
+    Ar = sp.csr_matrix(A)
     on_r, on_b = act_r != 0, act_b != 0
-    scale_k = max(1.0, float(np.max(np.abs(H.data), initial=0.0)),
-                  float(np.max(np.abs(sp.csr_matrix(A).data), initial=0.0)))
+    scale_k = max(1.0, float(np.max(np.abs(H.data), initial=0.0)), float(np.max(np.abs(Ar.data), initial=0.0)))
     eps = 1e-9 * scale_k
     U = masked_kkt_upper(H, A, on_r, on_b, eps, eps)
     try:
         fac = factor_upper(U)
         if need_inertia:
+            # the pivots come in AMD order: only their sign counts matter
             dpiv = np.asarray(fac.factors()[1]).reshape(-1)
             if not (np.isfinite(dpiv).all() and int((dpiv > 0).sum()) == n
                     and int((dpiv < 0).sum()) == m + n):
                 return None
     except (ValueError, RuntimeError):
         return None
-    Ar = sp.csr_matrix(A)
     on = np.concatenate([on_r, on_b])
     b = np.concatenate([np.where(on_r, b_r, 0.0), np.where(on_b, b_b, 0.0)])
     rhs_scale = max(1.0, float(np.max(np.abs(g), initial=0.0)), float(np.max(np.abs(b), initial=0.0)))
@@ -271,7 +260,7 @@ def polish(
         Active-set corrections tried.
     need_inertia : bool
         Accept a round only if ``H`` is positive definite on the null space
-        of its active constraints (see :func:`kkt_solve`); the result is then
+        of its active constraints (see :func:`_masked_kkt_solve`); the result is then
         a strict local minimiser of the QP even where ``H`` is indefinite.
 
     Returns

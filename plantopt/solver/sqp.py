@@ -32,10 +32,9 @@ from plantopt.solver.filter import Filter, acceptable_to_current, update_radius
 from plantopt.solver.inertia import regularise
 from plantopt.solver.nlp import CompiledNLP
 from plantopt.solver.options import (
-    DENSE_INERTIA_MAX,
-    FLOOR_DECREASE, FLOOR_MIN, FLOOR_RATIO, RATIO_SHRINK,
-    DELTA_FIRST, F_NOISE, FILTER_KAPPA, FILTER_SIGMA, H_MAX_FACTOR, H_MAX_MIN,
-    RESTORATION_CONSISTENT, RESTORATION_PROX, RADIUS_INIT, RADIUS_MIN,
+    DELTA_FIRST, DENSE_INERTIA_MAX, F_NOISE, FILTER_KAPPA, FILTER_SIGMA, FLOOR_DECREASE, FLOOR_MIN,
+    FLOOR_RATIO, H_MAX_FACTOR, H_MAX_MIN, RADIUS_INIT, RADIUS_MIN, RATIO_SHRINK, RESTORATION_CONSISTENT,
+    RESTORATION_PROX,
 )
 from plantopt.solver.problem import ScaledProblem, scale_csc
 from plantopt.solver.qp import QPResult, solve_qp, solve_qp_active_set
@@ -89,18 +88,22 @@ def _log_header() -> None:
           f"{'radius':>9} {'ratio':>9}  step")
 
 
-def _finish(prob: ScaledProblem, st: _State, tol: float) -> tuple[np.ndarray, np.ndarray, dict, bool]:
+def _finish(prob: ScaledProblem, st: _State, tol: float, predicted: tuple[np.ndarray, np.ndarray] | None = None,
+            ) -> tuple[np.ndarray, np.ndarray, dict, bool]:
     """Multipliers with zero regularisation and the scaled KKT measures at ``st``.
 
+    The active set is the constraints near a bound at ``st`` plus
+    ``predicted`` (row and bound activity, default ``st``'s own).
     Returns ``(y, yx, measures, optimal)``; the QP multipliers are kept if
     they measure better than the least-squares ones.
     """
     z, c = st.z, st.c
     act_r = kktmod.near_active(c, prob.cl, prob.cu, _ACTIVE_TOL)
     act_b = kktmod.near_active(z, prob.zl, prob.zu, _ACTIVE_TOL)
-    if st.act_r is not None:
-        act_r = np.where(act_r == 0, st.act_r, act_r)
-        act_b = np.where(act_b == 0, st.act_b, act_b)
+    pred_r, pred_b = predicted if predicted is not None else (st.act_r, st.act_b)
+    if pred_r is not None:
+        act_r = np.where(act_r == 0, pred_r, act_r)
+        act_b = np.where(act_b == 0, pred_b, act_b)
     y, yx = kktmod.ls_multipliers(st.grad, st.J, c, prob.cl, prob.cu, z, prob.zl, prob.zu, act_r, act_b)
     m_ls = kktmod.measures(st.grad, st.J, c, prob.cl, prob.cu, z, prob.zl, prob.zu, y, yx)
     m_qp = kktmod.measures(st.grad, st.J, c, prob.cl, prob.cu, z, prob.zl, prob.zu, st.y, st.yx)
@@ -323,10 +326,7 @@ def sqp_solve(
                 # while the QP's multipliers stalled at stationarity 1.4e-7;
                 # the rejected rounding-level steps then collapsed the region
                 # and ran restoration twice before this test passed.
-                act_r, act_b = st.act_r, st.act_b
-                st.act_r, st.act_b = qp.active_rows, qp.active_bounds
-                y_f, yx_f, m_f, _ = _finish(prob, st, tol)
-                st.act_r, st.act_b = act_r, act_b
+                y_f, yx_f, m_f, _ = _finish(prob, st, tol, (qp.active_rows, qp.active_bounds))
                 if max(m_f.values()) < max(meas.values()):
                     qp.y, qp.yx, meas = y_f, yx_f, m_f
                     opt = max(meas["stationarity"], meas["complementarity"])

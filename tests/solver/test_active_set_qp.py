@@ -65,14 +65,21 @@ def test_active_set_solve_refuses_a_saddle():
 
 
 def test_kkt_solve_with_inertia_rejects_indefinite_null_space():
+    from plantopt.solver.qp import _masked_kkt_solve
+
     H = sp.csc_matrix(np.diag([1.0, -1.0, 2.0]))
     M = sp.csr_matrix(np.array([[1.0, 0.0, 0.0]]))  # null space spans e2, e3: e2 has -1
     g, b = np.ones(3), np.zeros(1)
-    assert kkt_solve(H, g, M, b, need_inertia=True) is None
+    act_r, act_b, b_b = np.array([-1]), np.zeros(3, int), np.zeros(3)
+    assert _masked_kkt_solve(H, g, M, act_r, act_b, b, b_b, True) is None
     # without the inertia requirement the (nonsingular) system is solved
-    d, y = kkt_solve(H, g, M, b)
+    d, y, yx = _masked_kkt_solve(H, g, M, act_r, act_b, b, b_b, False)
     K = np.block([[H.toarray(), M.toarray().T], [M.toarray(), np.zeros((1, 1))]])
     assert K @ np.concatenate([d, y]) == pytest.approx(np.concatenate([-g, b]), abs=1e-12)
+    assert np.all(yx == 0)
+    # the active set's own matrix gives the same solution
+    d2, y2 = kkt_solve(H, g, M, b)
+    assert d2 == pytest.approx(d, abs=1e-12) and y2 == pytest.approx(y, abs=1e-12)
 
 
 def test_kkt_solve_skips_superlu_above_its_size_limit(monkeypatch):
