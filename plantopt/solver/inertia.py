@@ -54,9 +54,12 @@ def factor_upper(U: sp.spmatrix) -> "qdldl.Solver":
     pattern recurs across iterations while the active set is unchanged
     (measured on the 100-unit site benchmark: 1.7 ms for a new solver against
     0.4 ms for an update). The factors are those of a fresh factorisation
-    (same ordering, same arithmetic). Raises ``ValueError``/``RuntimeError``
-    on a breakdown, as ``qdldl.Solver`` does. The returned solver is shared:
-    use it before the next call, which may refactor it.
+    (same ordering, same arithmetic). A breakdown (zero pivot; the matrix
+    is not quasi-definite) does not raise: ``Solver.update`` reports none
+    (checked with qdldl 0.1.9), it shows as zero or non-finite pivots in
+    ``factors()[1]`` and as a solve that fails iterative refinement, which is
+    what every caller tests. The returned solver is shared: use it before
+    the next call, which may refactor it.
     """
     U = sp.csc_matrix(U)
     if not U.has_sorted_indices:
@@ -65,13 +68,41 @@ def factor_upper(U: sp.spmatrix) -> "qdldl.Solver":
         if ip.size == U.indptr.size and ix.size == U.indices.size and np.array_equal(ip, U.indptr) \
                 and np.array_equal(ix, U.indices):
             del _FACTORS[k]
-            fac.update(U, upper=True)  # on a breakdown the solver stays out of the cache
+            fac.update(U, upper=True)
             _FACTORS.insert(0, (ip, ix, fac))
             return fac
-    fac = qdldl.Solver(U, upper=True)
+    # The solver is built on a positive definite matrix of the same pattern
+    # and then refactored with the real values: a qdldl.Solver whose
+    # constructor raises on a breakdown leaks its workspace (measured with
+    # qdldl 0.1.9.post1: ~6 MB per failed construction at n = 12,379; the
+    # SQP's memory grew by ~200 MB per solve at 1,000 units, and the Finsler
+    # test breaks down on every too-small shift), while a failed update()
+    # does not. The symbolic analysis
+    # depends on the pattern only, so it stays valid and is cached even when
+    # this matrix breaks down.
+    fac = qdldl.Solver(_dominant(U), upper=True)
     _FACTORS.insert(0, (U.indptr.copy(), U.indices.copy(), fac))
     del _FACTORS[_FACTORS_KEPT:]
+    fac.update(U, upper=True)
     return fac
+
+
+def _dominant(U: sp.csc_matrix) -> sp.csc_matrix:
+    """Same pattern as the upper triangle ``U``, values made symmetric diagonally dominant.
+
+    Every column must hold its diagonal entry (all our KKT and Finsler
+    matrices store it explicitly). A symmetric strictly diagonally dominant
+    matrix with a positive diagonal is positive definite, so its ``LDL'``
+    exists in any order.
+    """
+    n = U.shape[0]
+    cols = np.repeat(np.arange(n), np.diff(U.indptr))
+    rows = U.indices
+    off = rows != cols
+    a = np.abs(U.data) * off
+    row_sum = np.bincount(rows, weights=a, minlength=n) + np.bincount(cols, weights=a, minlength=n)
+    data = np.where(off, U.data, 1.0 + row_sum[rows])
+    return sp.csc_matrix((data, U.indices, U.indptr), shape=U.shape)
 
 
 def kkt_matrix(H: sp.spmatrix, A: sp.spmatrix, delta: float, eps: float = EPS_QD) -> sp.csc_matrix:

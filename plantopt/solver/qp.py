@@ -237,6 +237,45 @@ def _masked_kkt_solve(
     return d, lam[:m], lam[m:]
 
 
+def _singleton_rows(A: sp.csr_matrix) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Rows of ``A`` with one nonzero: (row indices, their column, their coefficient)."""
+    cnt = np.diff(A.indptr)
+    rows = np.flatnonzero(cnt == 1)
+    pos = A.indptr[rows]
+    return rows, A.indices[pos], A.data[pos]
+
+
+def _drop_twins(
+    single: tuple[np.ndarray, np.ndarray, np.ndarray], act_r: np.ndarray, act_b: np.ndarray,
+    l: np.ndarray, u: np.ndarray, lb: np.ndarray, ub: np.ndarray,
+) -> None:
+    """Keep only one of a one-entry row and the bound of its variable in the active set (in place).
+
+    A row ``l_i <= a d_j <= u_i`` is a bound on ``d_j``; with both it and
+    ``d_j``'s own bound active the KKT matrix is singular. The tighter of
+    the two on the same side stays (an equality row always stays); on
+    opposite sides the row stays. Measured on the 1,000-unit site: the
+    polish added 195 such rows together with the bounds of the same
+    variables in one round, and every such round broke down.
+    """
+    rows, cols, coef = single
+    if rows.size == 0:
+        return
+    both = (act_r[rows] != 0) & (act_b[cols] != 0) & (coef != 0)
+    if not both.any():
+        return
+    i, j, a = rows[both], cols[both], coef[both]
+    sr = act_r[i]
+    val = np.where(sr < 0, l[i], u[i]) / a
+    side = sr * np.sign(a).astype(int)
+    sb = act_b[j]
+    bv = np.where(sb < 0, lb[j], ub[j])
+    row_tighter = np.where(side > 0, val <= bv, val >= bv)
+    keep_row = (l[i] == u[i]) | (side != sb) | row_tighter
+    act_b[j[keep_row]] = 0
+    act_r[i[~keep_row]] = 0
+
+
 def polish(
     H: sp.spmatrix, g: np.ndarray, A: sp.spmatrix, l: np.ndarray, u: np.ndarray,
     lb: np.ndarray, ub: np.ndarray, act_r: np.ndarray, act_b: np.ndarray,
@@ -276,8 +315,10 @@ def polish(
     act_r, act_b = act_r.copy(), act_b.copy()
     ineq = l != u
     free = lb != ub
+    single = _singleton_rows(A)
     seen: set[bytes] = set()
     for _ in range(rounds):
+        _drop_twins(single, act_r, act_b, l, u, lb, ub)
         key = act_r.tobytes() + act_b.tobytes()
         if key in seen:
             # the corrections cycle: the remaining rounds would repeat the

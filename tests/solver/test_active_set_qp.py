@@ -185,3 +185,61 @@ def test_masked_kkt_matches_the_reduced_system(seed):
     assert y[on_r] == pytest.approx(ref[n:n + on_r.sum()], abs=1e-8)
     assert yx[on_b] == pytest.approx(ref[n + on_r.sum():], abs=1e-8)
     assert np.all(y[~on_r] == 0) and np.all(yx[~on_b] == 0)
+
+
+def test_polish_keeps_one_of_a_one_entry_row_and_its_bound():
+    # min (d1 - 2)^2 + (d2 - 2)^2 s.t. 2 d1 <= 2 (a row with one entry) and the
+    # bound d1 <= 1.5. From an empty guess both are violated; both active would
+    # make the KKT matrix singular. The tighter row binds: d = (1, 2), and
+    # stationarity 2 (d1 - 2) + 2 y = 0 gives y = 1 (positive at an upper bound).
+    H = sp.csc_matrix(2.0 * np.eye(2))
+    g = np.array([-4.0, -4.0])
+    A = sp.csr_matrix(np.array([[2.0, 0.0]]))
+    l, u = np.array([-INF]), np.array([2.0])
+    lb, ub = np.full(2, -INF), np.array([1.5, INF])
+    qp = solve_qp_active_set(H, g, A, l, u, lb, ub, np.zeros(1, int), np.zeros(2, int))
+    assert qp is not None
+    assert qp.d == pytest.approx([1.0, 2.0], abs=1e-12)
+    assert qp.y == pytest.approx([1.0], abs=1e-12)
+    assert qp.yx == pytest.approx([0.0, 0.0], abs=1e-12)
+    assert list(qp.active_rows) == [1] and list(qp.active_bounds) == [0, 0]
+    # the bound tighter than the row: the bound binds instead, d1 = 0.5, yx_1 = 3
+    ub2 = np.array([0.5, INF])
+    qp = solve_qp_active_set(H, g, A, l, u, lb, ub2, np.zeros(1, int), np.zeros(2, int))
+    assert qp is not None
+    assert qp.d == pytest.approx([0.5, 2.0], abs=1e-12)
+    assert qp.yx == pytest.approx([3.0, 0.0], abs=1e-12)
+    assert list(qp.active_rows) == [0] and list(qp.active_bounds) == [1, 0]
+
+
+def test_polish_releases_a_slightly_wrong_signed_multiplier():
+    # min 1/2 |d|^2 + g'd with g = (-1e3, 1e-7) and d <= 0, guessed both active:
+    # the multipliers are yx = -g = (1e3, -1e-7); the second is on the wrong
+    # side of an upper bound by 1e-10 of max|yx|, above the KKT tolerance
+    # (1e-8). Released, d2 = -g2 = -1e-7: the exact solution.
+    H = sp.csc_matrix(np.eye(2))
+    g = np.array([-1e3, 1e-7])
+    A = sp.csr_matrix((0, 2))
+    none = np.zeros(0)
+    lb, ub = np.full(2, -INF), np.zeros(2)
+    qp = solve_qp_active_set(H, g, A, none, none, lb, ub, np.zeros(0, int), np.array([1, 1]))
+    assert qp is not None
+    assert qp.d == pytest.approx([0.0, -1e-7], abs=1e-15)
+    assert qp.yx == pytest.approx([1e3, 0.0], abs=1e-9)
+    assert list(qp.active_bounds) == [1, 0]
+
+
+def test_direct_qp_reports_the_active_set_it_solved():
+    # d2 is decoupled and unconstrained at its optimum d2 = 0, which is also
+    # its upper bound: left out of the guess, it stays out of the reported
+    # active set (a zero-multiplier bound reported active would enter the
+    # next KKT matrix as a dependent row)
+    H = sp.csc_matrix(np.diag([1.0, 1.0]))
+    g = np.array([1.0, 0.0])
+    A = sp.csr_matrix((0, 2))
+    none = np.zeros(0)
+    lb, ub = np.full(2, -INF), np.array([INF, 0.0])
+    qp = solve_qp_active_set(H, g, A, none, none, lb, ub, np.zeros(0, int), np.zeros(2, int))
+    assert qp is not None
+    assert qp.d == pytest.approx([-1.0, 0.0], abs=1e-15)
+    assert list(qp.active_bounds) == [0, 0]
