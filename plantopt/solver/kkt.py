@@ -19,6 +19,7 @@ import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
 from plantopt.solver.inertia import factor_upper, kkt_matrix, kkt_upper
+from plantopt.solver.options import SIGN_QP_MAX
 
 
 def measures(
@@ -171,7 +172,8 @@ def sign_multipliers(
     Returns
     -------
     (y, yx) or None
-        Casadi-sign multipliers, or None when piqp fails.
+        Casadi-sign multipliers, or None when piqp fails or the QP has more
+        than :data:`~plantopt.solver.options.SIGN_QP_MAX` variables.
     """
     import piqp
 
@@ -180,6 +182,8 @@ def sign_multipliers(
     k = rows.size + bnds.size
     if k == 0:
         return np.zeros(m), np.zeros(n)
+    if n + k > SIGN_QP_MAX:
+        return None
     J = sp.csr_matrix(J)
     E = sp.csr_matrix((np.ones(bnds.size), (np.arange(bnds.size), bnds)), shape=(bnds.size, n))
     M = sp.vstack([J[rows], E], format="csr")

@@ -157,6 +157,11 @@ KKT_INACTIVE_PIVOT = 1e20
 #: ~0.8 per step (residual 1e-8..1e-7 relative after 25 steps, so the direct QP was refused in
 #: about half the iterations); with 1e-11 it reached 1e-14 in 5-6 steps, with the same inertia.
 KKT_POLISH_EPS = 1e-11
+#: largest sign-constrained multiplier QP (plantopt.solver.kkt.sign_multipliers, n + k variables)
+#: handed to piqp. Our choice: piqp 0.7.0 crashed the process (segmentation fault in solve) on this
+#: QP at n + k of about 8e5 (restoration of the 10,000-unit site); it ran at the 1,000-unit site
+#: (about 2.5e4). Above the limit the search is skipped and the caller keeps its multipliers.
+SIGN_QP_MAX = 100_000
 
 DEFAULTS: dict[str, Any] = {
     "solver": "sqp",

@@ -279,3 +279,36 @@ def test_factor_upper_breakdowns_do_not_leak():
         if k == 4:
             before = _rss_mb()  # after the first patterns (allocator warm-up)
     assert _rss_mb() - before < 60.0
+
+
+@pytest.mark.parametrize("seed", [0, 1, 2])
+def test_finsler_with_masks_equals_the_active_rows_and_keeps_its_pattern(seed):
+    # The masked form (all rows of J, weights 0/1, bounds as identity rows)
+    # must give the matrix of the explicit active rows value for value, with
+    # one sparsity pattern for every active set; the certificate is checked
+    # against the null-space eigenvalues (numpy).
+    from plantopt.solver.inertia import _Finsler
+    rng = np.random.default_rng(seed)
+    n, m = 30, 18
+    J = sp.random(m, n, density=0.15, random_state=seed, format="csr") + sp.csr_matrix(
+        (np.ones(m), (np.arange(m), np.arange(m))), shape=(m, n))
+    Hd = rng.normal(size=(n, n))
+    Hd = 0.5 * (Hd + Hd.T)
+    Hd[np.abs(Hd) < 0.8] = 0.0
+    H = sp.csc_matrix(Hd)
+    patterns = set()
+    for trial in range(4):
+        on_r = rng.random(m) < 0.6
+        on_b = rng.random(n) < 0.2
+        E = sp.csr_matrix((np.ones(on_b.sum()), (np.arange(on_b.sum()), np.flatnonzero(on_b))), shape=(on_b.sum(), n))
+        A = sp.vstack([J[np.flatnonzero(on_r)], E], format="csc")
+        f_ref = _Finsler(H, A, 2.0)
+        f_mask = _Finsler(H, J, 2.0, on_r, on_b)
+        assert np.allclose(f_mask.U.toarray(), f_ref.U.toarray(), rtol=1e-14, atol=1e-14)
+        patterns.add((f_mask.U.indptr.tobytes(), f_mask.U.indices.tobytes()))
+        Z = sla.null_space(A.toarray())
+        for delta in (0.0, 0.5, 2.0, 5.0):
+            assert f_mask(delta) == f_ref(delta)
+            if f_mask(delta) and Z.size:
+                assert np.linalg.eigvalsh(Z.T @ (Hd + delta * np.eye(n)) @ Z).min() > 0
+    assert len(patterns) == 1
