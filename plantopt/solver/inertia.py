@@ -105,6 +105,61 @@ def _dominant(U: sp.csc_matrix) -> sp.csc_matrix:
     return sp.csc_matrix((data, U.indices, U.indptr), shape=U.shape)
 
 
+class _Assembly:
+    """Upper-triangular CSC matrix assembled from a fixed list of triplet positions.
+
+    Built once from the row and column indices of all contributions
+    (duplicates allowed); afterwards ``matrix(values)`` sums the values into
+    the stored pattern with one ``bincount``, without the sort of a COO to
+    CSC conversion (measured on the 1,000-unit site: 2.3 ms per masked KKT
+    matrix by conversion).
+    """
+
+    def __init__(self, rows: np.ndarray, cols: np.ndarray, N: int):
+        key = cols.astype(np.int64) * N + rows
+        uniq, self.inv = np.unique(key, return_inverse=True)
+        self.N = N
+        self.indices = (uniq % N).astype(np.int32)
+        self.indptr = np.searchsorted(uniq // N, np.arange(N + 1)).astype(np.int32)
+        self.nnz = uniq.size
+
+    def matrix(self, values: np.ndarray) -> sp.csc_matrix:
+        data = np.bincount(self.inv, weights=values, minlength=self.nnz)
+        return sp.csc_matrix((data, self.indices, self.indptr), shape=(self.N, self.N))
+
+
+#: assemblies kept for reuse, most recent first: (signature arrays, assembly, extra)
+_ASSEMBLIES: list[tuple[tuple, "_Assembly", object]] = []
+_ASSEMBLIES_KEPT = 6
+
+
+def _structure(M: sp.spmatrix) -> sp.spmatrix:
+    # CSC or CSR as given (their data order is then the triplet order used
+    # below); anything else converted to CSC
+    return M if M.format in ("csc", "csr") else sp.csc_matrix(M)
+
+
+def _triplets(M: sp.spmatrix) -> tuple[np.ndarray, np.ndarray]:
+    """Row and column index of every stored entry of a CSC/CSR matrix, in ``M.data`` order."""
+    major = np.repeat(np.arange(len(M.indptr) - 1), np.diff(M.indptr))
+    return (M.indices, major) if M.format == "csc" else (major, M.indices)
+
+
+def _cached_assembly(tag: str, mats: tuple[sp.spmatrix, ...], build) -> tuple["_Assembly", object]:
+    """The assembly for the sparsity patterns of ``mats`` (built by ``build()`` on a miss)."""
+    sig = (tag,) + tuple((M.format, M.shape) for M in mats)
+    for k, (key, asm, extra) in enumerate(_ASSEMBLIES):
+        if key[0] == sig and all(np.array_equal(a, M.indptr) and np.array_equal(b, M.indices)
+                                 for (a, b), M in zip(key[1], mats)):
+            if k:
+                _ASSEMBLIES.insert(0, _ASSEMBLIES.pop(k))
+            return asm, extra
+    asm, extra = build()
+    _ASSEMBLIES.insert(0, ((sig, tuple((M.indptr.copy(), M.indices.copy()) for M in mats)), asm, extra))
+    del _ASSEMBLIES[_ASSEMBLIES_KEPT:]
+    return asm, extra
+
+
 def kkt_matrix(H: sp.spmatrix, A: sp.spmatrix, delta: float, eps: float = EPS_QD) -> sp.csc_matrix:
     """Quasi-definite KKT matrix ``[[H + delta I, A'], [A, -eps I]]``, shape (n+m, n+m).
 
@@ -154,14 +209,21 @@ def masked_kkt_upper(
     is ``(n, m + n, 0)`` (up to the rounding-level ``A_i'A_i / 1e20``).
     """
     n, m = H.shape[0], A.shape[0]
-    Hc, Ac = sp.coo_matrix(H), sp.coo_matrix(A)
-    keep = Hc.row <= Hc.col
+    Hs, As = _structure(H), _structure(A)
+
+    def build():
+        hr, hc = _triplets(Hs)
+        ar, ac = _triplets(As)
+        keep = hr <= hc
+        idx_n, idx_k = np.arange(n), np.arange(m + n)
+        rows = np.concatenate([hr[keep], idx_n, ac, idx_n, n + idx_k])
+        cols = np.concatenate([hc[keep], idx_n, n + ar, n + m + idx_n, n + idx_k])
+        return _Assembly(rows, cols, 2 * n + m), keep
+
+    asm, keep = _cached_assembly("masked_kkt", (Hs, As), build)
     piv = np.concatenate([np.where(on_r, -eps, -KKT_INACTIVE_PIVOT), np.where(on_b, -eps, -KKT_INACTIVE_PIVOT)])
-    idx_n, idx_k = np.arange(n), np.arange(m + n)
-    rows = np.concatenate([Hc.row[keep], idx_n, Ac.col, idx_n, n + idx_k])
-    cols = np.concatenate([Hc.col[keep], idx_n, n + Ac.row, n + m + idx_n, n + idx_k])
-    vals = np.concatenate([Hc.data[keep], np.full(n, delta), Ac.data, np.ones(n), piv])
-    return sp.csc_matrix((vals, (rows, cols)), shape=(2 * n + m, 2 * n + m))
+    vals = np.concatenate([Hs.data[keep], np.full(n, delta), As.data, np.ones(n), piv])
+    return asm.matrix(vals)
 
 
 def _block_eigs(D: np.ndarray) -> np.ndarray:
@@ -271,31 +333,42 @@ class _Finsler:
         eye = sp.csc_matrix((np.ones(n), (idx, idx)), shape=(n, n))
         Hc = sp.csc_matrix(H)
         if row_on is not None:
-            Ar = sp.csr_matrix(A)
-            keep = np.flatnonzero(np.diff(Ar.indptr) <= FINSLER_ROW_MAX)
-            As = Ar[keep] if keep.size < Ar.shape[0] else Ar
-            w = np.asarray(row_on, dtype=float)[keep]
-            Ac = sp.csc_matrix(As)
-            Aw = sp.csr_matrix(As)
-            Aw.data = Aw.data * np.repeat(w, np.diff(Aw.indptr))
-            AtA = (Ac.T @ sp.csc_matrix(Aw)).tocsc()  # A_S' W A_S (scipy drops its zeros)
+            Hs, Js = _structure(Hc), sp.csr_matrix(A)
+
+            def build():
+                # every pair (c_i <= c_j) of entries of each short row r of J
+                # contributes w_r a_ri a_rj to entry (c_i, c_j) of A_S'W A_S
+                cnt = np.diff(Js.indptr)
+                short = np.flatnonzero((cnt <= FINSLER_ROW_MAX) & (cnt > 0))
+                p_i, p_j, p_r = [], [], []
+                for k in np.unique(cnt[short]):
+                    rk = short[cnt[short] == k]
+                    base = Js.indptr[rk][:, None] + np.arange(k)[None, :]  # (rows, k) data positions
+                    ii, jj = np.triu_indices(k)
+                    p_i.append(base[:, ii].ravel())
+                    p_j.append(base[:, jj].ravel())
+                    p_r.append(np.repeat(rk, ii.size))
+                p_i = np.concatenate(p_i) if p_i else np.zeros(0, int)
+                p_j = np.concatenate(p_j) if p_j else np.zeros(0, int)
+                p_r = np.concatenate(p_r) if p_r else np.zeros(0, int)
+                ci, cj = Js.indices[p_i], Js.indices[p_j]
+                lo, hi = np.minimum(ci, cj), np.maximum(ci, cj)
+                hr, hc = _triplets(Hs)
+                keep = hr <= hc
+                idx = np.arange(n)
+                rows = np.concatenate([hr[keep], lo, idx])
+                cols = np.concatenate([hc[keep], hi, idx])
+                # the diagonal of A_S'W A_S (for rho) from the pairs with c_i = c_j
+                return _Assembly(rows, cols, n), (keep, p_i, p_j, p_r, ci == cj, ci)
+
+            asm, (keep, p_i, p_j, p_r, on_diag, ci) = _cached_assembly("finsler", (Hs, Js), build)
+            w = np.asarray(row_on, dtype=float)
+            pair = w[p_r] * Js.data[p_i] * Js.data[p_j]
             bd = np.zeros(n) if bnd_on is None else np.asarray(bnd_on, dtype=float)
-            top = float((AtA.diagonal() + bd).max(initial=0.0))
+            diag = np.bincount(ci[on_diag], weights=pair[on_diag], minlength=n) + bd
+            top = float(diag.max(initial=0.0))
             rho = FINSLER_RATIO * scale / top if top > 0 else 0.0
-            # fixed pattern: the structural entries of H + A_S'A_S + I, from
-            # copies holding ones (stored zeros of H or J, which vary with the
-            # point, would otherwise drop out of the sums)
-            Hp, Ap = Hc.copy(), Ac.copy()
-            Hp.data, Ap.data = np.ones(Hp.nnz), np.ones(Ap.nnz)
-            pat = sp.triu(Hp + (Ap.T @ Ap) + eye, format="csc")
-            pat.sort_indices()
-            val = sp.triu(Hc + rho * AtA + rho * sp.diags(bd, format="csc"), format="coo")
-            cols_p = np.repeat(np.arange(n), np.diff(pat.indptr))
-            key_p = cols_p.astype(np.int64) * n + pat.indices
-            pos = np.searchsorted(key_p, val.col.astype(np.int64) * n + val.row)
-            data = np.zeros(pat.nnz)
-            np.add.at(data, pos, val.data)
-            U = sp.csc_matrix((data, pat.indices, pat.indptr), shape=(n, n))
+            U = asm.matrix(np.concatenate([Hs.data[keep], rho * pair, rho * bd]))
         else:
             if A.shape[0]:
                 Ar = sp.csr_matrix(A)
