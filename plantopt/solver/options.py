@@ -106,6 +106,9 @@ DELTA_TINY = 1e-10
 FLOOR_RATIO = 1.5
 FLOOR_DECREASE = 0.1
 FLOOR_MIN = 1e-10
+#: a tangent extension of the QP step (qp.tangent_extension) is tried only when it adds at
+#: least this fraction of |d|_inf; below it the shift did not limit the step materially
+EXTEND_MIN = 0.1
 #: growth factor of the trial shift (kappa_w^+, IC-5)
 DELTA_GROW = 8.0
 DELTA_MAX = 1e20
@@ -177,6 +180,14 @@ DEFAULTS: dict[str, Any] = {
     # the site benchmark (same optima): 1,000 units 16.9 s -> 11.9 s (28 of
     # 62 QPs through piqp), 300 units 1.8 s -> 0.9 s.
     "qp_active_set": True,
+    # SQP: after an interior shifted step with actual/predicted reduction
+    # above FLOOR_RATIO, try first the step extended along the active set's
+    # null space (plantopt.solver.qp.extended_qp), the plain step if it is
+    # refused. Off by default: on the site benchmark it brought the 3,000-unit
+    # site within 1e-4 of its optimum in 35 instead of 57 iterations, but
+    # neither setting converged there, and the 1,000-unit site took 29
+    # instead of 27 iterations (catalogue unchanged, 38/38).
+    "extend_steps": False,
 }
 
 EQUATION_DEFAULTS: dict[str, Any] = dict(DEFAULTS, solver="newton", tol=1e-9, max_iter=100)

@@ -33,11 +33,11 @@ from plantopt.solver.inertia import regularise
 from plantopt.solver.nlp import CompiledNLP
 from plantopt.solver.options import (
     DELTA_FIRST, DENSE_INERTIA_MAX, F_NOISE, FILTER_KAPPA, FILTER_SIGMA, FLOOR_DECREASE, FLOOR_MIN,
-    FLOOR_RATIO, H_MAX_FACTOR, H_MAX_MIN, RADIUS_INIT, RADIUS_MIN, RATIO_SHRINK, RESTORATION_CONSISTENT,
+    FLOOR_RATIO, H_MAX_FACTOR, H_MAX_MIN, RADIUS_INIT, RADIUS_MIN, RATIO_EXPAND, RATIO_SHRINK, RESTORATION_CONSISTENT,
     RESTORATION_PROX,
 )
 from plantopt.solver.problem import ScaledProblem, scale_csc
-from plantopt.solver.qp import QPResult, solve_qp, solve_qp_active_set
+from plantopt.solver.qp import QPResult, solve_qp, solve_qp_active_set, extended_qp
 from plantopt.solver.restoration import ElasticNLP
 from plantopt.solver.result import NLPResult
 from plantopt.solver.scaling import make_scaling, variable_scale
@@ -155,6 +155,7 @@ def sqp_solve(
     tol, max_iter, max_time = float(opts["tol"]), int(opts["max_iter"]), float(opts["max_time"])
     verbose = int(opts["verbose"])
     warm_qp = bool(opts.get("qp_active_set", True))
+    extend = bool(opts.get("extend_steps", True))
     warm_here = True  # False right after a rejected step
     callback = opts.get("callback")  # internal: restoration's hand-back test
     n, m = cnlp.nx, cnlp.ng
@@ -210,6 +211,9 @@ def sqp_solve(
     eq_rows = np.flatnonzero(np.isfinite(prob.cl) & (prob.cl == prob.cu))
     delta_last = 0.0
     delta_floor = DELTA_FIRST
+    n_ext = n_ext_ok = 0  # tangent extensions tried / accepted
+    z_back = None  # the last point restoration handed back
+    shift_limited = False  # the last accepted step was interior, shifted, with ratio > FLOOR_RATIO
     it = 0
     status, message = Status.FAILED, ""
     best = st
@@ -217,12 +221,12 @@ def sqp_solve(
     if verbose:
         _log_header()
 
-    diag: dict[str, Any] = {"delta": 0.0, "polished": False, "warm": False}
+    diag: dict[str, Any] = {"delta": 0.0, "polished": False, "warm": False, "extended": False}
 
     def record(kind: str, ratio: float, opt: float, accepted: bool, k: int | None = None,
                rad: float | None = None) -> None:
         rec = {"iter": it if k is None else k, "delta": diag["delta"], "qp_polished": diag["polished"],
-               "qp_active_set": diag["warm"],
+               "qp_active_set": diag["warm"], "extended": diag["extended"],
                "y_max": float(np.max(np.abs(st.y), initial=0.0)), "f": st.F / sc.sf, "violation": prob.violation_inf(st.c),
                "optimality": opt, "radius": radius if rad is None else rad, "ratio": ratio, "kind": kind,
                "accepted": accepted}
@@ -296,7 +300,9 @@ def sqp_solve(
             Hr = (H + delta * sp.identity(n)).tocsc()
             qp = solve_qp(Hr, st.grad, st.J, prob.cl - st.c, prob.cu - st.c, lb, ub)
         diag["delta"], diag["polished"], diag["warm"] = delta, qp.polished, qp.info == "active set"
+        diag["extended"] = False
         if qp.status != "solved":
+            z_before = st.z
             out = _restore(prob, st, filt, radius, tol, max_iter, max_time, t0, it, record, rest)
             st, radius, it, rstat, rmsg = out
             h = prob.violation(st.c)
@@ -307,6 +313,15 @@ def sqp_solve(
                 if rstat is Status.INFEASIBLE:
                     best = st
                 break
+            if z_back is not None and np.array_equal(st.z, z_back) and np.array_equal(z_before, z_back):
+                # Restoration handed back the point it was started from, and
+                # the QP failed there again. Measured on the site benchmark
+                # (3,000 units): the loop repeated until the iteration limit
+                # (a feasible point, 3e-9 scaled violation, whose QP kept failing).
+                status, message = Status.FAILED, ("the QP subproblem fails at the point restoration "
+                                                  "returns (restoration made no progress)")
+                break
+            z_back = st.z
             continue
         meas = kktmod.measures(st.grad, st.J, st.c, prob.cl, prob.cu, st.z, prob.zl, prob.zu, qp.y, qp.yx)
         opt = max(meas["stationarity"], meas["complementarity"])
@@ -370,10 +385,33 @@ def sqp_solve(
                 ratio = (h - ht) / pred_h if pred_h > 0 else (1.0 if ht < h else -np.inf)
             return ok, ratio, zt, (Ft, ct, ht)
 
-        ok, ratio, zt, trial = judge(d)
+        ok = None
+        qp_ext = None
+        if extend and shift_limited and delta > 0 and not at_boundary:
+            qp_ext = extended_qp(H, Hr, st.grad, st.J, prob.cl - st.c, prob.cu - st.c, lb, ub, qp, delta)
+            if qp_ext is not None:
+                n_ext += 1
+                saved = d, dn, pred, at_boundary, ftype, lin, pred_h
+                d = qp_ext.d
+                dn = float(np.max(np.abs(d), initial=0.0))
+                pred = -qp_ext.obj
+                at_boundary = dn >= 0.99 * radius
+                ftype = pred > 0 and pred >= FILTER_KAPPA * h**2
+                lin = st.c + st.J @ d
+                pred_h = h - prob.violation(lin)
+                ok, ratio, zt, trial = judge(d)
+                if ok and (derivs := prob.derivatives(zt)) is not None:
+                    n_ext_ok += 1
+                else:
+                    ok = None
+                    d, dn, pred, at_boundary, ftype, lin, pred_h = saved
+        ext_used = ok is not None
+        diag["extended"] = ext_used
+        if not ext_used:
+            ok, ratio, zt, trial = judge(d)
         kind = "objective" if ftype else "feasibility"
-        used_qp: QPResult = qp
-        if ok is False and m > 0 and trial is not None:
+        used_qp: QPResult = qp if not ext_used else qp_ext
+        if not ext_used and ok is False and m > 0 and trial is not None:
             ct = trial[1]
             csoc = ct - st.J @ d
             qp2 = None
@@ -386,7 +424,7 @@ def sqp_solve(
                 ok2, ratio2, zt2, trial2 = judge(qp2.d)
                 if ok2:
                     ok, ratio, zt, trial, kind, used_qp = ok2, ratio2, zt2, trial2, "correction", qp2
-        if ok:
+        if ok and not ext_used:
             derivs = prob.derivatives(zt)
             if derivs is None:
                 ok = False
@@ -398,6 +436,7 @@ def sqp_solve(
         warm_here = bool(ok)
         if not ok:
             delta_floor = DELTA_FIRST
+            shift_limited = False
             radius = update_radius(radius, -np.inf, dn, at_boundary)
             record(kind, float(ratio), opt, False)
             continue
@@ -407,6 +446,8 @@ def sqp_solve(
         st = _State(zt, Ft, ct, derivs[0], derivs[1], used_qp.y, used_qp.yx)
         st.act_r, st.act_b = used_qp.active_rows, used_qp.active_bounds
         h = ht
+        shift_limited = bool(delta > 0 and not at_boundary
+                             and (ratio > FLOOR_RATIO or (ext_used and ratio > RATIO_EXPAND)))
         if delta > 0 and ratio > FLOOR_RATIO and not at_boundary:
             delta_floor = max(delta_floor * FLOOR_DECREASE, FLOOR_MIN)
         elif ratio < RATIO_SHRINK:
