@@ -350,13 +350,14 @@ def sqp_solve(
             record("optimal", np.nan, opt, True)
             status, message = Status.OPTIMAL, "KKT conditions satisfied"
             break
-        d = qp.d
-        dn = float(np.max(np.abs(d), initial=0.0))
-        pred = -qp.obj
-        at_boundary = dn >= 0.99 * radius
-        ftype = pred > 0 and pred >= FILTER_KAPPA * h**2
-        lin = st.c + st.J @ d
-        pred_h = h - prob.violation(lin)
+        def step_measures(q: QPResult) -> tuple:
+            """Step, its inf-norm, predicted decrease, on the boundary, f-type, linearised violation decrease."""
+            dn_q = float(np.max(np.abs(q.d), initial=0.0))
+            pred_q = -q.obj
+            return (q.d, dn_q, pred_q, dn_q >= 0.99 * radius, pred_q > 0 and pred_q >= FILTER_KAPPA * h**2,
+                    h - prob.violation(st.c + st.J @ q.d))
+
+        d, dn, pred, at_boundary, ftype, pred_h = step_measures(qp)
 
         noise = F_NOISE * max(1.0, abs(st.F))
 
@@ -391,20 +392,14 @@ def sqp_solve(
             qp_ext = extended_qp(H, Hr, st.grad, st.J, prob.cl - st.c, prob.cu - st.c, lb, ub, qp, delta)
             if qp_ext is not None:
                 n_ext += 1
-                saved = d, dn, pred, at_boundary, ftype, lin, pred_h
-                d = qp_ext.d
-                dn = float(np.max(np.abs(d), initial=0.0))
-                pred = -qp_ext.obj
-                at_boundary = dn >= 0.99 * radius
-                ftype = pred > 0 and pred >= FILTER_KAPPA * h**2
-                lin = st.c + st.J @ d
-                pred_h = h - prob.violation(lin)
+                saved = d, dn, pred, at_boundary, ftype, pred_h
+                d, dn, pred, at_boundary, ftype, pred_h = step_measures(qp_ext)
                 ok, ratio, zt, trial = judge(d)
                 if ok and (derivs := prob.derivatives(zt)) is not None:
                     n_ext_ok += 1
                 else:
                     ok = None
-                    d, dn, pred, at_boundary, ftype, lin, pred_h = saved
+                    d, dn, pred, at_boundary, ftype, pred_h = saved
         ext_used = ok is not None
         diag["extended"] = ext_used
         if not ext_used:
