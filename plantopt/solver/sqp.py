@@ -32,7 +32,7 @@ from plantopt.solver.filter import Filter, acceptable_to_current, update_radius
 from plantopt.solver.inertia import regularise
 from plantopt.solver.nlp import CompiledNLP
 from plantopt.solver.options import (
-    DELTA_FIRST, DENSE_INERTIA_MAX, F_NOISE, FILTER_KAPPA, FILTER_SIGMA, FLOOR_DECREASE, FLOOR_MIN,
+    DEFAULTS, DELTA_FIRST, DENSE_INERTIA_MAX, F_NOISE, FILTER_KAPPA, FILTER_SIGMA, FLOOR_DECREASE, FLOOR_MIN,
     FLOOR_RATIO, H_MAX_FACTOR, H_MAX_MIN, RADIUS_INIT, RADIUS_MIN, RATIO_EXPAND, RATIO_SHRINK, RESTORATION_CONSISTENT,
     RESTORATION_PROX,
 )
@@ -155,7 +155,8 @@ def sqp_solve(
     tol, max_iter, max_time = float(opts["tol"]), int(opts["max_iter"]), float(opts["max_time"])
     verbose = int(opts["verbose"])
     warm_qp = bool(opts.get("qp_active_set", True))
-    extend = bool(opts.get("extend_steps", True))
+    # restoration's inner solve passes its own options: the default applies there
+    extend = bool(opts.get("extend_steps", DEFAULTS["extend_steps"]))
     warm_here = True  # False right after a rejected step
     callback = opts.get("callback")  # internal: restoration's hand-back test
     n, m = cnlp.nx, cnlp.ng
