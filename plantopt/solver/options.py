@@ -106,7 +106,7 @@ DELTA_TINY = 1e-10
 FLOOR_RATIO = 1.5
 FLOOR_DECREASE = 0.1
 FLOOR_MIN = 1e-10
-#: a tangent extension of the QP step (qp.tangent_extension) is tried only when it adds at
+#: an extension of the QP step (qp.extended_qp) is used only when it adds at
 #: least this fraction of |d|_inf; below it the shift did not limit the step materially
 EXTEND_MIN = 0.1
 #: growth factor of the trial shift (kappa_w^+, IC-5)

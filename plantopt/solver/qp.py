@@ -525,7 +525,6 @@ def solve_qp(
     return QPResult("solved", d, y, yx, obj, polished, act_r, act_b, info=str(st))
 
 
-
 def extended_qp(
     H: sp.spmatrix, Hr: sp.spmatrix, g: np.ndarray, A: sp.spmatrix, l: np.ndarray, u: np.ndarray,
     lb: np.ndarray, ub: np.ndarray, qp: QPResult, delta: float,
@@ -580,10 +579,9 @@ def extended_qp(
     if not (delta > 0.0) or dn == 0.0 or qp.status != "solved":
         return None
     A = sp.csr_matrix(A)
-    eq = l == u
     act_r = np.asarray(qp.active_rows).copy()
-    act_r[eq & (act_r == 0)] = 1  # equalities are always active
-    act_b = np.asarray(qp.active_bounds).copy()
+    act_r[(l == u) & (act_r == 0)] = 1  # equalities are always active
+    act_b = np.asarray(qp.active_bounds)
     # projection: min 1/2 |p|^2 - d'p subject to A_S p = 0, p_B = 0
     eye = sp.identity(n, format="csc")
     sol = _masked_kkt_solve(eye, -d, A, act_r, act_b, np.zeros(A.shape[0]), np.zeros(n), False)
@@ -605,26 +603,30 @@ def extended_qp(
         side = np.where(up <= dw, 1, -1)
         return np.maximum(np.minimum(up, dw), 0.0), side
 
+    def model(x: np.ndarray) -> float:
+        return float(g @ x + 0.5 * x @ (H @ x))  # the unshifted model
+
+    obj_d = model(d)
     a_max = max(1.0, float(np.max(np.abs(A.data), initial=1.0)))
     s_r, side_r = crossings(A @ d, A @ p, l, u, act_r, 1e-12 * pmax * a_max)
-    s_b, side_b = crossings(d, p, lb, ub, act_b, 1e-12 * pmax)
+    s_b, _ = crossings(d, p, lb, ub, act_b, 1e-12 * pmax)
     s_lim = min(s_star, float(np.min(s_b, initial=np.inf)))
     new_rows = np.flatnonzero(s_r <= s_lim)
     if new_rows.size:
         ar = np.asarray(qp.active_rows).copy()
         ar[new_rows] = side_r[new_rows]
         for HH in (H, Hr):
-            r = solve_qp_active_set(HH, g, A, l, u, lb, ub, ar, np.asarray(qp.active_bounds))
+            r = solve_qp_active_set(HH, g, A, l, u, lb, ub, ar, act_b)
             if r is not None and float(np.max(np.abs(r.d), initial=0.0)) > (1.0 + EXTEND_MIN) * dn \
-                    and float(g @ r.d + 0.5 * r.d @ (H @ r.d)) < float(g @ d + 0.5 * d @ (H @ d)):
+                    and model(r.d) < obj_d:
                 r.info = "extended active set"
                 return r
     s = min(s_lim, float(np.min(s_r, initial=np.inf)))
     if not np.isfinite(s) or s * pmax < EXTEND_MIN * dn:
         return None
     de = d + s * p
-    obj = float(g @ de + 0.5 * de @ (H @ de))
-    if not obj < float(g @ d + 0.5 * d @ (H @ d)):
+    obj = model(de)
+    if not obj < obj_d:
         return None
     return QPResult("solved", de, qp.y, qp.yx, obj, qp.polished, qp.active_rows, qp.active_bounds,
                     info="extended")

@@ -212,7 +212,6 @@ def sqp_solve(
     eq_rows = np.flatnonzero(np.isfinite(prob.cl) & (prob.cl == prob.cu))
     delta_last = 0.0
     delta_floor = DELTA_FIRST
-    n_ext = n_ext_ok = 0  # tangent extensions tried / accepted
     z_back = None  # the last point restoration handed back
     shift_limited = False  # the last accepted step was interior, shifted, with ratio > FLOOR_RATIO
     it = 0
@@ -392,13 +391,10 @@ def sqp_solve(
         if extend and shift_limited and delta > 0 and not at_boundary:
             qp_ext = extended_qp(H, Hr, st.grad, st.J, prob.cl - st.c, prob.cu - st.c, lb, ub, qp, delta)
             if qp_ext is not None:
-                n_ext += 1
                 saved = d, dn, pred, at_boundary, ftype, pred_h
                 d, dn, pred, at_boundary, ftype, pred_h = step_measures(qp_ext)
                 ok, ratio, zt, trial = judge(d)
-                if ok and (derivs := prob.derivatives(zt)) is not None:
-                    n_ext_ok += 1
-                else:
+                if not (ok and (derivs := prob.derivatives(zt)) is not None):
                     ok = None
                     d, dn, pred, at_boundary, ftype, pred_h = saved
         ext_used = ok is not None

@@ -56,7 +56,7 @@ def test_blocking_row_enters_and_is_certified():
     # minimiser of the nonconvex QP.
     H, g, A, l, u, lb, ub = _data(-0.1)
     Hr, qp = _shifted(H, g, A, l, u, lb, ub, 1.1)
-    assert qp.d == pytest.approx([1.0 / 1.0, 0.0], abs=1e-12)
+    assert qp.d == pytest.approx([1.0, 0.0], abs=1e-12)
     r = extended_qp(H, Hr, g, A, l, u, lb, ub, qp, 1.1)
     assert r is not None and r.info == "extended active set"
     assert r.d == pytest.approx([20.0 / 3.0, -5.0 / 3.0], abs=1e-10)
