@@ -56,7 +56,12 @@ def build_parser() -> argparse.ArgumentParser:
 
 def _terminated(signum: int, frame: Any) -> None:
     # SIGTERM becomes an exception so that atomic writers remove their
-    # temporary file and finished outputs stay as they are
+    # temporary file and finished outputs stay as they are; the mark keeps
+    # later writes from happening when the exception is swallowed inside an
+    # extension module (reports.io.request_termination)
+    from plantopt.reports.io import request_termination
+
+    request_termination()
     raise SystemExit(143)
 
 
@@ -64,14 +69,18 @@ def main(argv: Sequence[str] | None = None) -> int:
     """Run one command; returns the exit code (see the module docstring)."""
     from plantopt.flowsheet import parse_megabytes, set_max_input_bytes
 
+    from plantopt.reports.io import request_termination, termination_requested
+
     args = build_parser().parse_args(argv)
+    request_termination(False)
     previous = None
     if threading.current_thread() is threading.main_thread():
         previous = signal.signal(signal.SIGTERM, _terminated)
     try:
         if args.max_input_mb is not None:
             set_max_input_bytes(parse_megabytes(args.max_input_mb, file="<command line>", path="--max-input-mb"))
-        return _modules()[args.command].run(args)
+        code = _modules()[args.command].run(args)
+        return 143 if termination_requested() else code
     except (InputErrors, InputError, StructureError) as e:
         print(str(e), file=sys.stderr)
         return EXIT_BAD_INPUT

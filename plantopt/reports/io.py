@@ -18,6 +18,23 @@ from pathlib import Path
 from typing import Any
 
 
+#: set by the command line's SIGTERM handler. The handler also raises
+#: SystemExit, but a signal handled while casadi converts arguments is
+#: swallowed there (casadi's typemaps try the next conversion), and the run
+#: went on to write its outputs; this flag stops every later write.
+_termination = {"requested": False}
+
+
+def request_termination(flag: bool = True) -> None:
+    """Mark the run as terminated (``True``) or clear the mark; outputs are refused while it is set."""
+    _termination["requested"] = flag
+
+
+def termination_requested() -> bool:
+    """Whether :func:`request_termination` marked the run as terminated."""
+    return _termination["requested"]
+
+
 def atomic_write_bytes(path: str | Path, data: bytes) -> None:
     """Write ``data`` to ``path`` atomically (temporary file, fsync, rename)."""
     target = Path(path)
@@ -32,6 +49,8 @@ def atomic_write_bytes(path: str | Path, data: bytes) -> None:
             os.fsync(fh.fileno())
         # mkstemp makes the file private (0600); give it the mode a plain open() would
         os.chmod(tmp, _existing_mode(target))
+        if termination_requested():
+            raise SystemExit(143)  # the old file stays; the temporary one is removed below
         os.replace(tmp, target)
     except BaseException:
         try:

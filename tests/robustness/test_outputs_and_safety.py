@@ -220,3 +220,22 @@ def test_sigterm_during_a_solve_keeps_the_old_result(tmp_path):
     assert "Traceback" not in err
     assert out.read_text() == '{"old": true}\n'
     assert leftovers(tmp_path) == []
+
+
+def test_write_refused_after_termination_was_requested(tmp_path):
+    """A SIGTERM whose exception an extension module swallowed still stops every later output write."""
+    from plantopt.reports.io import atomic_write_text, request_termination
+
+    out = tmp_path / "result.json"
+    out.write_text('{"old": true}\n')
+    request_termination()
+    try:
+        with pytest.raises(SystemExit) as exc:
+            atomic_write_text(out, '{"new": true}\n')
+        assert exc.value.code == 143
+    finally:
+        request_termination(False)
+    assert out.read_text() == '{"old": true}\n'
+    assert leftovers(tmp_path) == []
+    atomic_write_text(out, '{"new": true}\n')  # cleared: writes go through again
+    assert out.read_text() == '{"new": true}\n'
