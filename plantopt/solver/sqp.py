@@ -85,7 +85,7 @@ def _active_matrix(J: sp.spmatrix, rows: np.ndarray, act_b: np.ndarray | None, n
 
 def _log_header() -> None:
     print(f"{'iter':>4} {'objective':>14} {'violation':>10} {'optimality':>10} "
-          f"{'radius':>9} {'ratio':>9}  step")
+          f"{'radius':>9} {'ratio':>9} {'shift':>8}  step")
 
 
 def _finish(prob: ScaledProblem, st: _State, tol: float, predicted: tuple[np.ndarray, np.ndarray] | None = None,
@@ -233,7 +233,8 @@ def sqp_solve(
         history.append(rec)
         if verbose:
             print(f"{rec['iter']:4d} {rec['f']:14.7e} {rec['violation']:10.3e} {opt:10.3e} "
-                  f"{rec['radius']:9.2e} {ratio:9.2e}  {kind}{'' if accepted else ' (rejected)'}")
+                  f"{rec['radius']:9.2e} {ratio:9.2e} {rec['delta']:8.1e}  {kind}{' (extended)' if rec['extended'] else ''}"
+                  f"{'' if accepted else ' (rejected)'}")
 
     def lin_bounds(zc: np.ndarray, r: float) -> tuple[np.ndarray, np.ndarray]:
         return np.maximum(prob.zl - zc, -r), np.minimum(prob.zu - zc, r)

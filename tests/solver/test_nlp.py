@@ -192,7 +192,7 @@ def test_verbose_log(capsys):
     nlp, x0, lbx, ubx, lbg, ubg = build(pr)
     solve_nlp(nlp, x0, lbx, ubx, lbg, ubg, options={"verbose": 1})
     out = capsys.readouterr().out
-    for word in ("iter", "objective", "violation", "optimality", "radius", "ratio", "step"):
+    for word in ("iter", "objective", "violation", "optimality", "radius", "ratio", "shift", "step"):
         assert word in out.splitlines()[0]
     assert len(out.splitlines()) >= 3
     solve_nlp(nlp, x0, lbx, ubx, lbg, ubg)
