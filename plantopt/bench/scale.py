@@ -203,7 +203,9 @@ def run_solver(case: dict[str, Any], solver: str, max_iter: int = 500, max_time:
     cnlp = asm.compiled
     lbx, ubx = asm.x_bounds()
     lbg, ubg = asm.g_bounds("optimize", fs)
-    opts = {"solver": solver, "x_nominal": asm.x_nominal(), "max_iter": max_iter}
+    from plantopt.studies.optimize import variable_nominals
+
+    opts = {"solver": solver, "x_nominal": variable_nominals(asm, x0), "max_iter": max_iter}
     if math.isfinite(max_time):
         opts["max_time"] = max_time
     setup_s = 0.0

@@ -101,3 +101,32 @@ def test_junk_warm_start_file_is_an_input_error(demo, tmp_path):
     with pytest.raises(InputError) as e:
         load_warm_start(p, asm)
     assert str(e.value).startswith(f"{p}: warm_start: expected lists of numbers")
+
+
+def test_variable_nominals_come_from_the_start_point(demo):
+    """Scaling of the optimization: a variable's typical magnitude is its value at the
+    converged start point, unless that value is below 1 % of the model's nominal.
+
+    Check against the file itself: the benzene feed is specified as 80 kmol/h
+    (flowsheets/demo.toml), so its total-flow variable is scaled by 80 kmol/h =
+    22.2 mol/s, where the feed model's class-wide nominal is 1 mol/s.
+    """
+    import numpy as np
+
+    from plantopt.studies.optimize import START_SCALE_MIN, start_point, variable_nominals
+
+    fs, asm = demo
+    x0 = start_point(asm, fs)
+    nom = variable_nominals(asm, x0)
+    model = asm.x_nominal()
+    big = np.abs(x0) > START_SCALE_MIN * model
+    assert np.array_equal(nom[big], np.abs(x0[big]))
+    assert np.array_equal(nom[~big], model[~big])
+    i = asm.unit_var_index["FEED_BZ"]["Ftot"]
+    assert model[i] == 1.0
+    assert nom[i] == pytest.approx(80.0 * 1000.0 / 3600.0, rel=1e-9)
+    assert (nom > 0).all() and np.isfinite(nom).all()
+    # a start value that is not finite keeps the model nominal
+    x_bad = x0.copy()
+    x_bad[i] = np.nan
+    assert variable_nominals(asm, x_bad)[i] == model[i]
