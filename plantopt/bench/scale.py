@@ -52,16 +52,34 @@ def _maxrss_mb() -> float:
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
 
 
+def _rss_mb() -> float | None:
+    """Current resident set of this process, MB (None where /proc is missing)."""
+    try:
+        with open("/proc/self/statm") as fh:
+            return int(fh.read().split()[1]) * os.sysconf("SC_PAGE_SIZE") / 2**20
+    except (OSError, ValueError, IndexError):
+        return None
+
+
 # ---------------------------------------------------------------- build
-def build_case(units: int, header_fanout: int = 16) -> dict[str, Any]:
+def build_case(units: int, header_fanout: int = 16, hessian: bool = True) -> dict[str, Any]:
     """Generate, load, assemble, check, differentiate and start one site.
+
+    The Lagrangian Hessian, which only the SQP uses, is generated last, after
+    the start point and simulation (``hessian=True``), or left to the first
+    solve that needs it (``hessian=False``): it is the largest item of the
+    build, and generated before the simulation it had the simulation's own
+    transient memory on top of it.
 
     Returns
     -------
     dict
         ``fs``, ``asm``, ``x0`` and the timings (s) ``gen_s``, ``load_s``,
-        ``assemble_s``, ``structure_s``, ``derivatives_s``, ``start_s``,
-        ``build_s`` (assembly + derivative generation), plus sizes.
+        ``assemble_s``, ``structure_s``, ``derivatives_s`` (constraint
+        Jacobian, gradient and, with ``hessian``, the Hessian),
+        ``hessian_s``, ``start_s``, ``build_s`` (assembly + derivative
+        generation), plus sizes and ``stage_rss_mb`` (resident set after each
+        stage, MB, and the peak so far).
     """
     from plantopt.assembly import assemble
     from plantopt.bench.generators import site_flowsheet, site_units, trains_for_units
@@ -70,6 +88,12 @@ def build_case(units: int, header_fanout: int = 16) -> dict[str, Any]:
     from plantopt.structure import check_structure
 
     out: dict[str, Any] = {}
+    mem: dict[str, Any] = {}
+
+    def stage(name: str) -> None:
+        mem[name] = {"rss": _rss_mb(), "peak": _maxrss_mb()}
+
+    stage("start")
     trains = trains_for_units(units, header_fanout)
     t = time.perf_counter()
     text = site_flowsheet(trains, header_fanout=header_fanout)
@@ -77,21 +101,27 @@ def build_case(units: int, header_fanout: int = 16) -> dict[str, Any]:
     t = time.perf_counter()
     # the size limit guards hand-written files; generated sites are larger by design
     fs = loads_flowsheet(text, f"site_{trains}.toml", max_bytes=max(len(text.encode()) + 1, 4 << 20))
+    del text
     out["load_s"] = time.perf_counter() - t
+    stage("load")
     t = time.perf_counter()
     asm = assemble(fs)
     out["assemble_s"] = time.perf_counter() - t
+    stage("assemble")
     t = time.perf_counter()
     rep = check_structure(asm)
     out["structure_s"] = time.perf_counter() - t
+    stage("structure")
     if not rep.ok:
         raise RuntimeError("generated site is ill-posed: " + "; ".join(rep.lines()[:5]))
     t = time.perf_counter()
     cnlp = asm.compiled
     out["derivatives_s"] = time.perf_counter() - t
+    stage("derivatives")
     t = time.perf_counter()
     x0 = asm.initial_point(fs)
     out["initial_point_s"] = time.perf_counter() - t
+    stage("initial_point")
     lbx, ubx = asm.x_bounds()
     lbg, ubg = asm.g_bounds("simulate", fs)
     r = solve_equations(cnlp, x0, lbx, ubx, lbg, ubg, p=asm.p_values(fs),
@@ -100,10 +130,19 @@ def build_case(units: int, header_fanout: int = 16) -> dict[str, Any]:
     if np.all(np.isfinite(r.x)):
         x0 = np.asarray(r.x, dtype=float)
     out["start_s"] = time.perf_counter() - t
+    stage("simulate")
+    out["hessian_s"] = None
+    if hessian:
+        t = time.perf_counter()
+        cnlp.hess_lag  # generated on first use
+        out["hessian_s"] = time.perf_counter() - t
+        out["derivatives_s"] += out["hessian_s"]
+        stage("hessian")
     out["build_s"] = out["assemble_s"] + out["derivatives_s"]
     out.update(units=site_units(trains, header_fanout), trains=trains, nx=cnlp.nx, ng=cnlp.ng,
-               nnz_jac=int(cnlp.jac_g.indices.size), nnz_hess=int(cnlp.hess_lag.indices.size),
-               fs=fs, asm=asm, x0=x0)
+               nnz_jac=int(cnlp.jac_g.indices.size),
+               nnz_hess=int(cnlp.hess_lag.indices.size) if hessian else None,
+               stage_rss_mb=mem, fs=fs, asm=asm, x0=x0)
     return out
 
 
@@ -364,7 +403,8 @@ def _row(info: dict[str, Any], solver: str, r: dict[str, Any]) -> dict[str, Any]
     row = {"units": info.get("units", info.get("units_requested")), "solver": solver, "status": None,
            "objective": None, "iterations": None, "wall_s": None, "peak_mb": None}
     for k in ("trains", "nx", "ng", "nnz_jac", "nnz_hess", "gen_s", "load_s", "assemble_s", "structure_s",
-              "derivatives_s", "initial_point_s", "start_s", "build_s", "simulate_converged", "build_peak_mb"):
+              "derivatives_s", "hessian_s", "initial_point_s", "start_s", "build_s", "simulate_converged",
+              "build_peak_mb", "stage_rss_mb"):
         if k in info:
             row[k] = info[k]
     row.update({k: v for k, v in r.items() if k not in ("units", "trains")})

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, Callable
 
 import casadi as ca
 import numpy as np
@@ -44,6 +44,8 @@ class CompiledNLP:
         The original casadi-style dictionary (used by the IPOPT reference).
     n_eval : dict of str to int
         Cumulative evaluation counts (reset by each solve).
+    hess_lag : _SparseFn
+        The Lagrangian Hessian, generated on first use (see :func:`compile_nlp`).
     """
 
     nlp: dict
@@ -54,8 +56,17 @@ class CompiledNLP:
     grad_f_fn: ca.Function
     g_fn: ca.Function
     jac_g: _SparseFn
-    hess_lag: _SparseFn
+    hess_builder: Callable[[], _SparseFn] | None = field(default=None, repr=False)
     n_eval: dict[str, int] = field(default_factory=dict)
+    _hess_lag: _SparseFn | None = field(default=None, repr=False)
+
+    @property
+    def hess_lag(self) -> _SparseFn:
+        """Hessian of ``sigma f + lam_g' g`` as a sparse Function of (x, p, sigma, lam_g)."""
+        if self._hess_lag is None:
+            self._hess_lag = self.hess_builder()
+            self.hess_builder = None
+        return self._hess_lag
 
     @property
     def jac_g_sparsity(self) -> sp.csc_matrix:
@@ -149,10 +160,19 @@ def compile_nlp(nlp: dict | CompiledNLP) -> CompiledNLP:
     if p.numel() > 0 and p.size2() != 1:
         raise SolverError(f"nlp['p'] must be a column, got shape {p.shape}")
     nx, ng, npar = x.size1(), g.size1(), p.numel()
-    sigma = sym.sym("sigma")
-    lam = sym.sym("lam_g", ng)
-    lag = sigma * f + (ca.dot(lam, g) if ng else 0)
-    hess = ca.hessian(lag, x)[0]
+
+    def hessian() -> _SparseFn:
+        # Generated on first use: only the optimizer needs it (simulations,
+        # start points and the IPOPT reference, which differentiates on its
+        # own, never do). On the 10,000-unit site benchmark it is the largest
+        # single item of the build: ~4 million instructions, ~380 MB with the
+        # expression graph the Function keeps alive.
+        sigma = sym.sym("sigma")
+        lam = sym.sym("lam_g", ng)
+        lag = sigma * f + (ca.dot(lam, g) if ng else 0)
+        hess = ca.hessian(lag, x)[0]
+        return _SparseFn(ca.Function("hess_lag", [x, p, sigma, lam], [hess]))
+
     jac = ca.jacobian(g, x)
     cnlp = CompiledNLP(
         nlp=dict(nlp),
@@ -163,7 +183,7 @@ def compile_nlp(nlp: dict | CompiledNLP) -> CompiledNLP:
         grad_f_fn=ca.Function("grad_f", [x, p], [ca.densify(ca.gradient(f, x))]),
         g_fn=ca.Function("g", [x, p], [ca.densify(g)]),
         jac_g=_SparseFn(ca.Function("jac_g", [x, p], [jac])),
-        hess_lag=_SparseFn(ca.Function("hess_lag", [x, p, sigma, lam], [hess])),
+        hess_builder=hessian,
     )
     cnlp.reset_counts()
     return cnlp
