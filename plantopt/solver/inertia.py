@@ -35,7 +35,7 @@ import scipy.sparse as sp
 
 from plantopt.solver.options import (
     DELTA_DECREASE, DELTA_FIRST, DELTA_GROW, DELTA_MAX, DELTA_TINY,
-    DENSE_INERTIA_MAX, EPS_QD, FINSLER_RATIO, FINSLER_ROW_MAX, KKT_INACTIVE_PIVOT,
+    DENSE_INERTIA_MAX, EPS_QD, FINSLER_RATIO, FINSLER_ROW_MAX, KKT_INACTIVE_PIVOT, PIVOT_CLEAN,
 )
 
 
@@ -241,13 +241,18 @@ def _block_eigs(D: np.ndarray) -> np.ndarray:
     return np.asarray(ev)
 
 
-def inertia(K: sp.spmatrix, dense_fallback: bool = True, upper: bool = False) -> tuple[int, int, int]:
+def inertia(K: sp.spmatrix, dense_fallback: bool = True, upper: bool = False,
+            pivots: list | None = None) -> tuple[int, int, int]:
     """Counts of (positive, negative, zero) pivots of ``LDL'`` of a symmetric matrix.
 
     Parameters
     ----------
     K : sparse (N, N)
         Symmetric matrix (full storage; only the upper triangle is read).
+
+    pivots : list, optional
+        Receives the smallest ``|pivot|`` of the unpivoted factorisation
+        (``inf`` when it broke down or was not used).
 
     Returns
     -------
@@ -263,6 +268,8 @@ def inertia(K: sp.spmatrix, dense_fallback: bool = True, upper: bool = False) ->
         fac = factor_upper(sp.csc_matrix(K) if upper else sp.triu(K, format="csc"))
         d = np.asarray(fac.factors()[1]).reshape(-1)
         if np.isfinite(d).all():
+            if pivots is not None:
+                pivots.append(float(np.min(np.abs(d))))
             return (int(np.sum(d > tiny)), int(np.sum(d < -tiny)), int(np.sum(np.abs(d) <= tiny)))
     except (ValueError, RuntimeError):
         pass
@@ -329,6 +336,7 @@ class _Finsler:
         """
         n = H.shape[0]
         self.n = n
+        self.rho = 0.0
         idx = np.arange(n)
         eye = sp.csc_matrix((np.ones(n), (idx, idx)), shape=(n, n))
         Hc = sp.csc_matrix(H)
@@ -368,6 +376,7 @@ class _Finsler:
             diag = np.bincount(ci[on_diag], weights=pair[on_diag], minlength=n) + bd
             top = float(diag.max(initial=0.0))
             rho = FINSLER_RATIO * scale / top if top > 0 else 0.0
+            self.rho = rho
             U = asm.matrix(np.concatenate([Hs.data[keep], rho * pair, rho * bd]))
         else:
             if A.shape[0]:
@@ -379,6 +388,7 @@ class _Finsler:
                 AtA = (Ac.T @ Ac).tocsc()
                 top = float(AtA.diagonal().max(initial=0.0))
                 rho = FINSLER_RATIO * scale / top if top > 0 else 0.0
+                self.rho = rho
                 base = Hc + rho * AtA
             else:
                 base = Hc
@@ -399,7 +409,7 @@ class _Finsler:
         return positive_definite(U)
 
 
-def regularise(H: sp.spmatrix, A: sp.spmatrix, delta_last: float = 0.0, floor: float = DELTA_FIRST,
+def regularise(H: sp.spmatrix, A: sp.spmatrix | None, delta_last: float = 0.0, floor: float = DELTA_FIRST,
                mask: tuple[sp.spmatrix, np.ndarray, np.ndarray] | None = None) -> float:
     """Smallest tried ``delta >= 0`` giving ``K`` the inertia ``(n, m, 0)``.
 
@@ -411,8 +421,9 @@ def regularise(H: sp.spmatrix, A: sp.spmatrix, delta_last: float = 0.0, floor: f
     ----------
     H : sparse (n, n)
         Lagrangian Hessian (full symmetric storage).
-    A : sparse (m, n)
-        Rows whose null space must carry positive curvature.
+    A : sparse (m, n) or None
+        Rows whose null space must carry positive curvature (``None`` when
+        ``mask`` gives them).
     delta_last : float
         Shift of the previous iteration; the search starts at the larger of
         ``floor`` and a third of it.
@@ -422,40 +433,57 @@ def regularise(H: sp.spmatrix, A: sp.spmatrix, delta_last: float = 0.0, floor: f
         ``A`` given instead as the active rows ``on_r`` of ``J`` (m_J, n) and
         the active bounds ``on_b`` (n,): the unpivoted inertia tests then use
         :func:`masked_kkt_upper`, whose pattern does not change with the
-        active set (the pivoted dense fallback and the Finsler test still
-        use ``A``).
+        active set, and so does the Finsler test; ``A`` may then be
+        ``None`` (the dense fallback, for small systems only, needs it).
 
     Returns
     -------
     float
         The shift ``delta`` (0 when no correction was needed).
     """
-    n, m = H.shape[0], A.shape[0]
+    if A is None and mask is None:
+        raise ValueError("regularise needs A or mask")
+    n = H.shape[0]
+    m = A.shape[0] if A is not None else int(np.count_nonzero(mask[1]) + np.count_nonzero(mask[2]))
     want = (n, m, 0)
+    scale = max(1.0, float(abs(H).max()) if H.nnz else 1.0)
+    # smallest |pivot| of the last unpivoted test (inf: it broke down)
+    piv: list[float] = []
     if mask is not None:
         J, on_r, on_b = mask
         want_m = (n, J.shape[0] + n, 0)
 
         def first_test(delta: float) -> bool:
+            piv.clear()
             return inertia(masked_kkt_upper(H, J, on_r, on_b, delta, EPS_QD), dense_fallback=False,
-                           upper=True) == want_m
+                           upper=True, pivots=piv) == want_m
     else:
         def first_test(delta: float) -> bool:
-            return inertia(kkt_upper(H, A, delta), dense_fallback=False, upper=True) == want
+            piv.clear()
+            return inertia(kkt_upper(H, A, delta), dense_fallback=False, upper=True, pivots=piv) == want
+
+    def clean() -> bool:
+        # The unpivoted test failed with every pivot well away from zero: its
+        # inertia count is then exact (Sylvester), and since its -eps block
+        # makes it a Finsler test with rho = 1/eps, larger than the stable
+        # test's rho, the stable test would fail too (a smaller rho is
+        # stricter). Only a test with tiny pivots (rounding, breakdown) is
+        # worth the second opinion.
+        return bool(piv) and piv[0] > PIVOT_CLEAN * scale and finsler.rho * EPS_QD <= 1.0
+
     if first_test(0.0):
         return 0.0
-    scale = max(1.0, float(abs(H).max()) if H.nnz else 1.0)
     finsler = _Finsler(H, A, scale) if mask is None else _Finsler(H, mask[0], scale, mask[1], mask[2])
-    if finsler(0.0):
+    if not clean() and finsler(0.0):
         return 0.0
 
     def ok(delta: float, dense: bool) -> bool:
         if first_test(delta):
             return True
-        if dense and n + m <= DENSE_INERTIA_MAX and \
+        if dense and A is not None and n + m <= DENSE_INERTIA_MAX and \
                 inertia(kkt_upper(H, A, delta), dense_fallback=True, upper=True) == want:
             return True
-        return finsler(delta)
+        return not clean() and finsler(delta)
 
     # qdldl does not pivot: zero diagonal entries of H (variables entering
     # linearly) can give a zero pivot although the curvature on the null

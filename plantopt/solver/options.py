@@ -128,6 +128,12 @@ FINSLER_RATIO = 1e7
 #: benchmark: a blend-mixer energy row with 744 entries gave most of the ~780k nonzeros of A'A
 #: (45k in H) and 70-90 ms per Finsler factorisation.
 FINSLER_ROW_MAX = 64
+#: the unpivoted KKT inertia test is trusted without the Finsler test when it fails with every
+#: pivot above PIVOT_CLEAN max(1, max|H|) in magnitude (and the Finsler rho is at most 1/EPS_QD, so
+#: that test would be the stricter one). Our choice: pivots of that size carry an exact inertia
+#: count; measured on the 3,000-unit site the Finsler test then never certified a shift the
+#: unpivoted test had refused.
+PIVOT_CLEAN = 1e-8
 
 # --- QP subproblem (plantopt.solver.qp) -----------------------------------
 #: iteration limit of piqp's first run; a run that hits it unconverged is repeated with the full

@@ -209,7 +209,8 @@ def sqp_solve(
     # FL2002 sec. 3; a multiple of the initial violation.
     filt = Filter(h_max=max(H_MAX_MIN, H_MAX_FACTOR * h))
     rest = {"radius": None}
-    eq_rows = np.flatnonzero(np.isfinite(prob.cl) & (prob.cl == prob.cu))
+    is_eq = np.isfinite(prob.cl) & (prob.cl == prob.cu)
+    eq_rows = np.flatnonzero(is_eq)
     delta_last = 0.0
     delta_floor = DELTA_FIRST
     z_back = None  # the last point restoration handed back
@@ -268,14 +269,16 @@ def sqp_solve(
         if qp is not None:
             delta, Hr = 0.0, H
         else:
-            rows = eq_rows if st.act_r is None else np.union1d(eq_rows, np.flatnonzero(st.act_r))
-            mask = None
+            # boolean masks: np.union1d sorted ~40k indices per call (65 ms
+            # each on the 3,000-unit site, 7 % of the solve)
+            on_r = is_eq if st.act_r is None else is_eq | (st.act_r != 0)
             if n > DENSE_INERTIA_MAX:
                 # one KKT pattern for every active set (inertia.masked_kkt_upper)
-                on_r = np.zeros(m, dtype=bool)
-                on_r[rows.astype(int)] = True
                 mask = (st.J, on_r, np.zeros(n, bool) if st.act_b is None else st.act_b != 0)
-            delta = regularise(H, _active_matrix(st.J, rows, st.act_b, n), delta_last, delta_floor, mask)
+                delta = regularise(H, None, delta_last, delta_floor, mask)
+            else:
+                delta = regularise(H, _active_matrix(st.J, np.flatnonzero(on_r), st.act_b, n), delta_last,
+                                   delta_floor)
             delta_last = delta
             Hr = (H + delta * sp.identity(n)).tocsc() if delta else H
             if warm_qp and warm_here and st.act_r is not None and delta > 0:
@@ -292,7 +295,7 @@ def sqp_solve(
             # the inertia test on the active set of the failed QP's last
             # iterate; as a last resort convexify on the whole space.
             if attempt < 2:
-                A_try = _active_matrix(st.J, np.union1d(eq_rows, np.flatnonzero(qp.active_rows)),
+                A_try = _active_matrix(st.J, np.flatnonzero(is_eq | (qp.active_rows != 0)),
                                        qp.active_bounds, n)
                 delta = max(regularise(H, A_try, delta), DELTA_FIRST, 10.0 * delta)
             else:
