@@ -459,7 +459,11 @@ def table(rows: list[dict[str, Any]]) -> str:
             rel = abs(a - b) / max(1.0, abs(b))
             same = d["sqp"].get("active_limits") == d["ipopt"].get("active_limits")
             ratio = (d["sqp"]["wall_s"] / d["ipopt"]["wall_s"]) if d["ipopt"].get("wall_s") else float("nan")
-            notes.append(f"{u:>6} units: profit rel. diff {rel:.1e}, active limits {'agree' if same else 'DIFFER'} "
+            # both statuses optimal and the profits apart: two local optima of a
+            # nonconvex site (DEVELOPERS.md), so say which one is higher
+            higher = ("" if rel <= 1e-6 or not (d["sqp"].get("status") == d["ipopt"].get("status") == "optimal")
+                      else f" ({'SQP' if a > b else 'IPOPT'} higher: two local optima)")
+            notes.append(f"{u:>6} units: profit rel. diff {rel:.1e}{higher}, active limits {'agree' if same else 'DIFFER'} "
                          f"({len(d['sqp'].get('active_limits') or [])} vs {len(d['ipopt'].get('active_limits') or [])}), "
                          f"SQP/IPOPT solve wall {ratio:.2f}")
     legend = ("build = assembly + first-derivative generation (shared by both solvers); start = sequential start point + "
