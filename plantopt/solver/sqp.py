@@ -28,7 +28,7 @@ import numpy as np
 import scipy.sparse as sp
 
 from plantopt.solver import kkt as kktmod
-from plantopt.solver.filter import Filter, acceptable_to_current, update_radius
+from plantopt.solver.filter import Filter, acceptable_to_current, rounding_step_acceptable, update_radius
 from plantopt.solver.inertia import regularise
 from plantopt.solver.nlp import CompiledNLP
 from plantopt.solver.options import (
@@ -378,11 +378,9 @@ def sqp_solve(
             h_noise = F_NOISE * max(1.0, float(np.sum(np.abs(ct))))
             if pred <= noise and pred_h <= h_noise:
                 # Predicted changes of F and of the violation below their
-                # rounding levels: the ratios are noise. Such a final
-                # Newton-like step is accepted if neither F nor the violation
-                # gets worse beyond rounding.
+                # rounding levels: the ratios are noise (filter.rounding_step_acceptable).
                 ratio = 1.0
-                ok = ht <= h + h_noise and Ft <= st.F + noise
+                ok = rounding_step_acceptable(h, ht, h_noise, st.F, Ft, noise, pred)
             elif ftype:
                 ratio = (st.F - Ft) / pred
                 ok = ok and ratio >= FILTER_SIGMA

@@ -312,3 +312,23 @@ def test_finsler_with_masks_equals_the_active_rows_and_keeps_its_pattern(seed):
             if f_mask(delta) and Z.size:
                 assert np.linalg.eigvalsh(Z.T @ (Hd + delta * np.eye(n)) @ Z).min() > 0
     assert len(patterns) == 1
+
+
+def test_rounding_level_step_may_cost_its_predicted_objective():
+    """Regression from the 10,000-unit site benchmark (values as logged there): at a KKT point
+    the last Newton step was predicted to raise the scaled objective by 1.9e-12, raised it by
+    1.2e-12 and cut the violation from 2.0e-9 to 4.8e-10. Judged against rounding alone it was
+    rejected and the solve ended as failed."""
+    from plantopt.solver.filter import rounding_step_acceptable
+
+    F = -24.4
+    case = dict(h=1.972e-9, ht=4.833e-10, h_noise=2.546e-8, f=F, ft=F + 1.183e-12, f_noise=5.428e-13, pred=-1.895e-12)
+    assert rounding_step_acceptable(**case)
+    assert not case["ft"] <= case["f"] + case["f_noise"]  # the rule before: rounding alone
+    # more objective than predicted plus rounding: refused
+    assert not rounding_step_acceptable(**{**case, "ft": F + 1.895e-12 + 5.428e-13 + 1e-13})
+    # a predicted decrease allows no increase beyond rounding
+    assert not rounding_step_acceptable(**{**case, "pred": 1e-13, "ft": F + 1e-12})
+    assert rounding_step_acceptable(**{**case, "pred": 1e-13, "ft": F + 5e-13})
+    # violation worse beyond its rounding level: refused
+    assert not rounding_step_acceptable(**{**case, "ht": 1.972e-9 + 2.6e-8})
