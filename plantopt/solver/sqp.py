@@ -36,7 +36,7 @@ from plantopt.solver.options import (
     FLOOR_RATIO, H_MAX_FACTOR, H_MAX_MIN, RADIUS_INIT, RADIUS_MIN, RATIO_EXPAND, RATIO_SHRINK, RESTORATION_CONSISTENT,
     RESTORATION_PROX,
 )
-from plantopt.solver.problem import ScaledProblem, scale_csc
+from plantopt.solver.problem import ScaledProblem, scale_csc, shift_diagonal
 from plantopt.solver.qp import QPResult, solve_qp, solve_qp_active_set, extended_qp
 from plantopt.solver.restoration import ElasticNLP
 from plantopt.solver.result import NLPResult
@@ -280,7 +280,7 @@ def sqp_solve(
                 delta = regularise(H, _active_matrix(st.J, np.flatnonzero(on_r), st.act_b, n), delta_last,
                                    delta_floor)
             delta_last = delta
-            Hr = (H + delta * sp.identity(n)).tocsc() if delta else H
+            Hr = shift_diagonal(H, delta) if delta else H
             if warm_qp and warm_here and st.act_r is not None and delta > 0:
                 # the shifted H is positive definite on the null space of the
                 # predicted active set: the same direct solve usually holds
@@ -301,7 +301,7 @@ def sqp_solve(
             else:
                 delta = regularise(H, sp.csc_matrix((0, n)), delta)
             delta_last = delta
-            Hr = (H + delta * sp.identity(n)).tocsc()
+            Hr = shift_diagonal(H, delta)
             qp = solve_qp(Hr, st.grad, st.J, prob.cl - st.c, prob.cu - st.c, lb, ub)
         diag["delta"], diag["polished"], diag["warm"] = delta, qp.polished, qp.info == "active set"
         diag["extended"] = False

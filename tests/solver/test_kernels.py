@@ -332,3 +332,22 @@ def test_rounding_level_step_may_cost_its_predicted_objective():
     assert rounding_step_acceptable(**{**case, "pred": 1e-13, "ft": F + 5e-13})
     # violation worse beyond its rounding level: refused
     assert not rounding_step_acceptable(**{**case, "ht": 1.972e-9 + 2.6e-8})
+
+
+def test_shifted_hessian_keeps_one_pattern():
+    """H and H + delta I share one sparsity pattern (explicit zeros kept on the diagonal), so
+    the fixed-pattern KKT factorisations see one matrix structure; values checked against numpy."""
+    from plantopt.solver.problem import shift_diagonal, with_diagonal
+
+    rng = np.random.default_rng(7)
+    for _ in range(50):
+        n = int(rng.integers(1, 25))
+        A = sp.random(n, n, density=0.25, random_state=int(rng.integers(1_000_000)), format="csc")
+        A = (A + A.T).tocsc()
+        A.data[rng.random(A.nnz) < 0.2] = 0.0  # structural zeros as casadi stores them
+        W, S = with_diagonal(A), shift_diagonal(A, 0.3)
+        assert np.array_equal(W.toarray(), A.toarray())
+        np.testing.assert_allclose(S.toarray(), A.toarray() + 0.3 * np.eye(n))
+        assert np.array_equal(S.indptr, W.indptr) and np.array_equal(S.indices, W.indices)
+        cols = np.repeat(np.arange(n), np.diff(W.indptr))
+        assert np.array_equal(np.sort(W.indices[W.indices == cols]), np.arange(n))
