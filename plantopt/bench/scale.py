@@ -262,7 +262,7 @@ def run_solver(case: dict[str, Any], solver: str, max_iter: int = 500, max_time:
         t = time.perf_counter()
         _solver(cnlp, dx, sg, o)
         setup_s = time.perf_counter() - t
-    elif cnlp._hess_lag is None:
+    elif not cnlp.has_hessian:
         # the Lagrangian Hessian, which only our SQP uses, is generated in the
         # SQP's own process (build_case(hessian=False)): its setup, as
         # nlpsol's derivative generation is IPOPT's, and IPOPT's process does

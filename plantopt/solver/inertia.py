@@ -254,8 +254,8 @@ def inertia(K: sp.spmatrix, dense_fallback: bool = True, upper: bool = False,
         Symmetric matrix (full storage; only the upper triangle is read).
 
     pivots : list, optional
-        Receives the smallest ``|pivot|`` of the unpivoted factorisation
-        (``inf`` when it broke down or was not used).
+        Receives the smallest ``|pivot|`` of the unpivoted factorisation;
+        nothing is appended when it broke down.
 
     Returns
     -------
@@ -452,7 +452,7 @@ def regularise(H: sp.spmatrix, A: sp.spmatrix | None, delta_last: float = 0.0, f
     m = A.shape[0] if A is not None else int(np.count_nonzero(mask[1]) + np.count_nonzero(mask[2]))
     want = (n, m, 0)
     scale = max(1.0, float(abs(H).max()) if H.nnz else 1.0)
-    # smallest |pivot| of the last unpivoted test (inf: it broke down)
+    # smallest |pivot| of the last unpivoted test (empty: it broke down)
     piv: list[float] = []
     if mask is not None:
         J, on_r, on_b = mask

@@ -61,6 +61,11 @@ class CompiledNLP:
     _hess_lag: _SparseFn | None = field(default=None, repr=False)
 
     @property
+    def has_hessian(self) -> bool:
+        """Whether :attr:`hess_lag` has been generated."""
+        return self._hess_lag is not None
+
+    @property
     def hess_lag(self) -> _SparseFn:
         """Hessian of ``sigma f + lam_g' g`` as a sparse Function of (x, p, sigma, lam_g)."""
         if self._hess_lag is None:
