@@ -25,6 +25,12 @@ def scale_csc(M: sp.csc_matrix, row: np.ndarray, col: np.ndarray) -> sp.csc_matr
     return sp.csc_matrix((data, M.indices, M.indptr), shape=M.shape)
 
 
+def _diagonal_entries(M: sp.csc_matrix) -> tuple[np.ndarray, np.ndarray]:
+    """Column of every stored entry of a CSC matrix, and which entries are diagonal."""
+    cols = np.repeat(np.arange(M.shape[1]), np.diff(M.indptr))
+    return cols, M.indices == cols
+
+
 def with_diagonal(M: sp.csc_matrix) -> sp.csc_matrix:
     """``M`` (square CSC) with every diagonal entry stored, explicit zeros kept.
 
@@ -38,9 +44,9 @@ def with_diagonal(M: sp.csc_matrix) -> sp.csc_matrix:
     """
     M = sp.csc_matrix(M)
     n = M.shape[0]
-    cols = np.repeat(np.arange(n), np.diff(M.indptr))
+    cols, on_diag = _diagonal_entries(M)
     has = np.zeros(n, dtype=bool)
-    has[M.indices[M.indices == cols]] = True
+    has[M.indices[on_diag]] = True
     if has.all():
         return M
     miss = np.flatnonzero(~has)
@@ -58,9 +64,8 @@ def shift_diagonal(M: sp.csc_matrix, delta: float) -> sp.csc_matrix:
     M = with_diagonal(M)
     if not delta:
         return M
-    cols = np.repeat(np.arange(M.shape[0]), np.diff(M.indptr))
     data = M.data.copy()
-    data[M.indices == cols] += delta
+    data[_diagonal_entries(M)[1]] += delta
     return sp.csc_matrix((data, M.indices, M.indptr), shape=M.shape)
 
 

@@ -210,7 +210,6 @@ def sqp_solve(
     filt = Filter(h_max=max(H_MAX_MIN, H_MAX_FACTOR * h))
     rest = {"radius": None}
     is_eq = np.isfinite(prob.cl) & (prob.cl == prob.cu)
-    eq_rows = np.flatnonzero(is_eq)
     delta_last = 0.0
     delta_floor = DELTA_FIRST
     z_back = None  # the last point restoration handed back
