@@ -34,45 +34,58 @@ def _shifted(H, g, A, l, u, lb, ub, delta):
     return Hr, qp
 
 
-def test_blocking_row_enters_with_the_unshifted_hessian_when_certified():
-    # H = diag(0, 1), delta = 1: shifted minimiser (1, 0), interior. With the
-    # row active and H: -1 + y = 0, x2 + y = 0, x1 + x2 = 5 -> y = 1 > 0,
-    # x = (6, -1); curvature on the row's null space (1, -1): 1/2 > 0.
+def test_extension_goes_to_the_blocking_row():
+    # H = diag(0, 1), delta = 1: shifted minimiser (1, 0), interior (d'Hd = 0
+    # along x1, where the shift alone bounds the step). The projection of d
+    # on the null space of the (empty) active set is p = d = (1, 0); the
+    # unshifted model -x1 keeps falling along it, so the path d + s p runs to
+    # the row x1 + x2 <= 5 (s = 4) before the region (s = 9): d = (5, 0),
+    # model -5.
     H, g, A, l, u, lb, ub = _data(0.0)
     Hr, qp = _shifted(H, g, A, l, u, lb, ub, 1.0)
-    r = extended_qp(H, Hr, g, A, l, u, lb, ub, qp, 1.0)
-    assert r is not None and r.info == "extended active set"
-    assert r.d == pytest.approx([6.0, -1.0], abs=1e-10)
-    assert r.y == pytest.approx([1.0], abs=1e-10)
+    assert qp.d == pytest.approx([1.0, 0.0], abs=1e-12)
+    r = extended_qp(H, g, A, l, u, lb, ub, qp, 1.0)
+    assert r is not None and r.info == "extended"
+    assert r.d == pytest.approx([5.0, 0.0], abs=1e-10)
+    assert r.obj == pytest.approx(-5.0, abs=1e-10)
 
 
-def test_blocking_row_enters_and_is_certified():
+def test_extension_along_negative_curvature_stops_at_the_row():
     # H = diag(-0.1, 1) is indefinite, a shift delta = 1.1 gives Hr = diag(1, 2.1):
-    # the shifted QP's minimiser (1, 0) is interior. Along p = (1, 0) the row
-    # x1 + x2 <= 5 is crossed (s = 4) before the region (s = 9). With the row
-    # active and the unshifted H: -1 - 0.1 x1 + y = 0, x2 + y = 0, x1 + x2 = 5
-    # -> y = 1.5 / 0.9 = 5/3 > 0 (right sign), x = (20/3, -5/3); the curvature
-    # on the row's null space (1, -1) is (-0.1 + 1) / 2 > 0: a strict local
-    # minimiser of the nonconvex QP.
+    # the shifted QP's minimiser (1, 0) is interior. Along p = (1, 0), p'Hp < 0,
+    # so the unshifted model -x1 - 0.05 x1^2 has no minimum on the path; the
+    # row x1 + x2 <= 5 is crossed at s = 4, before the region (s = 9):
+    # d = (5, 0), model -5 - 0.05 * 25 = -6.25 (at (1, 0): -1.05).
     H, g, A, l, u, lb, ub = _data(-0.1)
     Hr, qp = _shifted(H, g, A, l, u, lb, ub, 1.1)
     assert qp.d == pytest.approx([1.0, 0.0], abs=1e-12)
-    r = extended_qp(H, Hr, g, A, l, u, lb, ub, qp, 1.1)
-    assert r is not None and r.info == "extended active set"
-    assert r.d == pytest.approx([20.0 / 3.0, -5.0 / 3.0], abs=1e-10)
-    assert r.y == pytest.approx([5.0 / 3.0], abs=1e-10)
-    assert list(r.active_rows) == [1]
+    r = extended_qp(H, g, A, l, u, lb, ub, qp, 1.1)
+    assert r is not None and r.info == "extended"
+    assert r.d == pytest.approx([5.0, 0.0], abs=1e-10)
+    assert r.obj == pytest.approx(-6.25, abs=1e-10)
 
 
-def test_extension_stops_at_the_row_when_the_face_is_not_certified():
-    # H = 0 (a linear objective): with delta = 1 (Hr = I) the shifted minimiser is
-    # (1, 0). With the row active, H has zero curvature on its null space and
-    # the shifted solve has y = -2 (wrong sign: x1 = 1 - y, x2 = -y,
-    # 1 - 2y = 5), so neither face solve is certified; the step goes along
-    # p = (1, 0) to the row, d = (5, 0), where -x1 is lower than at (1, 0).
+def test_extension_stops_at_the_model_minimum():
+    # H = diag(0.5, 1), delta = 1: shifted minimiser (2/3, 0). Along p = d the
+    # unshifted model -x1 + x1^2 / 4 has its minimum at x1 = 2 (s* = delta
+    # |p|^2 / p'Hp = 1 * (4/9) / (0.5 * 4/9) = 2, x1 = 2/3 + 2 * 2/3 = 2),
+    # before the row (x1 = 5): d = (2, 0), model -1.
+    H, g, A, l, u, lb, ub = _data(0.5)
+    Hr, qp = _shifted(H, g, A, l, u, lb, ub, 1.0)
+    assert qp.d == pytest.approx([2.0 / 3.0, 0.0], abs=1e-12)
+    r = extended_qp(H, g, A, l, u, lb, ub, qp, 1.0)
+    assert r is not None and r.info == "extended"
+    assert r.d == pytest.approx([2.0, 0.0], abs=1e-10)
+    assert r.obj == pytest.approx(-1.0, abs=1e-10)
+
+
+def test_extension_with_a_linear_objective_stops_at_the_row():
+    # H = 0 (a linear objective): with delta = 1 (Hr = I) the shifted minimiser
+    # is (1, 0); the path along p = (1, 0) goes to the row, d = (5, 0), where
+    # -x1 is lower than at (1, 0).
     H, g, A, l, u, lb, ub = _data(0.0, 0.0)
     Hr, qp = _shifted(H, g, A, l, u, lb, ub, 1.0)
-    r = extended_qp(H, Hr, g, A, l, u, lb, ub, qp, 1.0)
+    r = extended_qp(H, g, A, l, u, lb, ub, qp, 1.0)
     assert r is not None and r.info == "extended"
     assert r.d == pytest.approx([5.0, 0.0], abs=1e-10)
     assert r.obj == pytest.approx(-5.0, abs=1e-10)
@@ -82,11 +95,11 @@ def test_extension_stops_at_the_row_when_the_face_is_not_certified():
 def test_no_extension_without_shift_or_when_the_model_is_the_limit():
     H, g, A, l, u, lb, ub = _data(1.0)
     qp = solve_qp_active_set(H, g, A, l, u, lb, ub, np.zeros(1, int), np.zeros(2, int))
-    assert extended_qp(H, H, g, A, l, u, lb, ub, qp, 0.0) is None
+    assert extended_qp(H, g, A, l, u, lb, ub, qp, 0.0) is None
     # H = diag(1, 1), delta = 1e-3: the unshifted model's minimum along p is at
     # s* = delta |p|^2 / p'Hp = 1e-3 -- the shift did not limit the step
     Hr, qp = _shifted(H, g, A, l, u, lb, ub, 1e-3)
-    assert extended_qp(H, Hr, g, A, l, u, lb, ub, qp, 1e-3) is None
+    assert extended_qp(H, g, A, l, u, lb, ub, qp, 1e-3) is None
 
 
 def test_extension_keeps_the_optimum_on_the_catalogue():

@@ -230,3 +230,28 @@ def test_second_order_correction_on_maratos_example(theta):
     assert r.f == pytest.approx(-1.0, abs=1e-10)
     np.testing.assert_allclose(r.lam_g, [-1.5], atol=1e-9)
     assert r.history[0]["kind"] == "correction"
+
+
+@pytest.mark.parametrize("theta", [0.3, 1.0])
+def test_accepted_step_that_raises_the_violation_is_corrected(theta):
+    # min -x1 s.t. x1^2 + x2^2 = 1 (hand calculation: x* = (1, 0), f* = -1,
+    # -1 + 2 lam x1 = 0 -> lam = 1/2). From a point on the circle the first QP
+    # step runs along the tangent: f falls by more than the model predicts
+    # (f is linear), so the filter accepts it, but it leaves the circle by
+    # |d|^2. With soc_accepted the second-order correction pulls the point
+    # back towards the circle in the same iteration.
+    x = ca.SX.sym("x", 2)
+    nlp = {"x": x, "f": -x[0], "g": x[0] ** 2 + x[1] ** 2}
+    x0 = [np.cos(theta), np.sin(theta)]
+    on = solve_nlp(nlp, x0, lbg=1, ubg=1, options={"soc_accepted": True})
+    off = solve_nlp(nlp, x0, lbg=1, ubg=1, options={"soc_accepted": False})
+    for r in (on, off):
+        assert r.success
+        np.testing.assert_allclose(r.x, [1.0, 0.0], atol=1e-8)
+        assert r.f == pytest.approx(-1.0, abs=1e-8)  # feasibility tol 1e-8
+        np.testing.assert_allclose(r.lam_g, [0.5], atol=1e-8)
+    assert off.history[0]["kind"] == "objective"
+    assert on.history[0]["kind"] == "corrected"
+    # the corrected point is closer to the circle than the plain step's
+    assert on.history[0]["violation"] < 0.7 * off.history[0]["violation"]
+    assert on.history[0]["f"] < x0[0] * -1.0
