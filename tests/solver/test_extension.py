@@ -34,49 +34,34 @@ def _shifted(H, g, A, l, u, lb, ub, delta):
     return Hr, qp
 
 
-def test_extension_goes_to_the_blocking_row():
+@pytest.mark.parametrize("h1, delta, d_shifted, d_ext, obj", [
     # H = diag(0, 1), delta = 1: shifted minimiser (1, 0), interior (d'Hd = 0
     # along x1, where the shift alone bounds the step). The projection of d
     # on the null space of the (empty) active set is p = d = (1, 0); the
     # unshifted model -x1 keeps falling along it, so the path d + s p runs to
     # the row x1 + x2 <= 5 (s = 4) before the region (s = 9): d = (5, 0),
     # model -5.
-    H, g, A, l, u, lb, ub = _data(0.0)
-    Hr, qp = _shifted(H, g, A, l, u, lb, ub, 1.0)
-    assert qp.d == pytest.approx([1.0, 0.0], abs=1e-12)
-    r = extended_qp(H, g, A, l, u, lb, ub, qp, 1.0)
-    assert r is not None and r.info == "extended"
-    assert r.d == pytest.approx([5.0, 0.0], abs=1e-10)
-    assert r.obj == pytest.approx(-5.0, abs=1e-10)
-
-
-def test_extension_along_negative_curvature_stops_at_the_row():
+    (0.0, 1.0, 1.0, 5.0, -5.0),
     # H = diag(-0.1, 1) is indefinite, a shift delta = 1.1 gives Hr = diag(1, 2.1):
     # the shifted QP's minimiser (1, 0) is interior. Along p = (1, 0), p'Hp < 0,
     # so the unshifted model -x1 - 0.05 x1^2 has no minimum on the path; the
     # row x1 + x2 <= 5 is crossed at s = 4, before the region (s = 9):
     # d = (5, 0), model -5 - 0.05 * 25 = -6.25 (at (1, 0): -1.05).
-    H, g, A, l, u, lb, ub = _data(-0.1)
-    Hr, qp = _shifted(H, g, A, l, u, lb, ub, 1.1)
-    assert qp.d == pytest.approx([1.0, 0.0], abs=1e-12)
-    r = extended_qp(H, g, A, l, u, lb, ub, qp, 1.1)
-    assert r is not None and r.info == "extended"
-    assert r.d == pytest.approx([5.0, 0.0], abs=1e-10)
-    assert r.obj == pytest.approx(-6.25, abs=1e-10)
-
-
-def test_extension_stops_at_the_model_minimum():
+    (-0.1, 1.1, 1.0, 5.0, -6.25),
     # H = diag(0.5, 1), delta = 1: shifted minimiser (2/3, 0). Along p = d the
     # unshifted model -x1 + x1^2 / 4 has its minimum at x1 = 2 (s* = delta
     # |p|^2 / p'Hp = 1 * (4/9) / (0.5 * 4/9) = 2, x1 = 2/3 + 2 * 2/3 = 2),
     # before the row (x1 = 5): d = (2, 0), model -1.
-    H, g, A, l, u, lb, ub = _data(0.5)
-    Hr, qp = _shifted(H, g, A, l, u, lb, ub, 1.0)
-    assert qp.d == pytest.approx([2.0 / 3.0, 0.0], abs=1e-12)
-    r = extended_qp(H, g, A, l, u, lb, ub, qp, 1.0)
+    (0.5, 1.0, 2.0 / 3.0, 2.0, -1.0),
+], ids=["to_the_row", "negative_curvature_to_the_row", "to_the_model_minimum"])
+def test_extension_stops_at_the_row_or_the_model_minimum(h1, delta, d_shifted, d_ext, obj):
+    H, g, A, l, u, lb, ub = _data(h1)
+    Hr, qp = _shifted(H, g, A, l, u, lb, ub, delta)
+    assert qp.d == pytest.approx([d_shifted, 0.0], abs=1e-12)
+    r = extended_qp(H, g, A, l, u, lb, ub, qp, delta)
     assert r is not None and r.info == "extended"
-    assert r.d == pytest.approx([2.0, 0.0], abs=1e-10)
-    assert r.obj == pytest.approx(-1.0, abs=1e-10)
+    assert r.d == pytest.approx([d_ext, 0.0], abs=1e-10)
+    assert r.obj == pytest.approx(obj, abs=1e-10)
 
 
 def test_extension_with_a_linear_objective_stops_at_the_row():
